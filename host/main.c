@@ -1,0 +1,47 @@
+/* weft: the command-line entry point, a thin dispatcher over the subcommands. */
+#include <stdio.h>
+#include <string.h>
+
+#include <weft/stage.h>
+
+#include "cli.h"
+
+static const char usage[] =
+    "usage: weft COMMAND [ARGS]\n"
+    "\n"
+    "Runs graphs of biosignal processing stages (plugins) on live or recorded streams.\n"
+    "\n"
+    "commands:\n"
+    "  check GRAPH        validate a graph file and print it resolved\n"
+    "  run GRAPH          run a graph (see weft run --help)\n"
+    "  stages [NAME]      list the plugins found and their parameters\n"
+    "  version            print the weft and stage ABI versions\n"
+    "\n"
+    "Each command takes --help. Exit codes: 0 done, 1 the run failed, 2 usage error,\n"
+    "3 the graph or a plugin is not valid.\n"
+    "Research use only: weft is not a medical device.\n";
+
+int main(int argc, char **argv)
+{
+    if (argc < 2) {
+        fputs(usage, stderr);
+        return EXIT_USAGE;
+    }
+    const char *cmd = argv[1];
+    if (!strcmp(cmd, "--help") || !strcmp(cmd, "-h") || !strcmp(cmd, "help")) {
+        fputs(usage, stdout);
+        return EXIT_OK;
+    }
+    if (!strcmp(cmd, "version") || !strcmp(cmd, "--version")) {
+        printf("weft %s (stage ABI %d.%d)\n", WEFT_VERSION, WEFT_ABI_MAJOR, WEFT_ABI_MINOR);
+        return EXIT_OK;
+    }
+    if (!strcmp(cmd, "check"))
+        return cli_check(argc - 1, argv + 1);
+    if (!strcmp(cmd, "run"))
+        return cli_run(argc - 1, argv + 1);
+    if (!strcmp(cmd, "stages"))
+        return cli_stages(argc - 1, argv + 1);
+    fprintf(stderr, "weft: unknown command '%s'\n\n%s", cmd, usage);
+    return EXIT_USAGE;
+}
