@@ -103,13 +103,11 @@ static int list_dir(const char *dir, const char *only, int *found)
         }
         if (p.handle)
             plugin_close(&p);
-        free(names[i]);
         if (*found && only)
             break;
     }
     for (size_t i = 0; i < n; i++)
-        if (*found && only)
-            free(names[i]), names[i] = NULL;
+        free(names[i]);
     free(names);
     return 0;
 }

@@ -171,7 +171,7 @@ static uint32_t source_block(const pipeline *pl, double rate)
     return frames < 1 ? 1 : (uint32_t)frames;
 }
 
-static int init_stage(node *n, diag *d)
+int node_init(node *n, diag *d)
 {
     pipeline *pl = n->pl;
     memset(&n->out, 0, sizeof n->out);
@@ -194,7 +194,7 @@ static int init_stage(node *n, diag *d)
     return check_layout(n, d);
 }
 
-static int alloc_output(node *n, diag *d)
+int node_alloc_output(node *n, diag *d)
 {
     if (n->role != WEFT_ROLE_SOURCE && n->role != WEFT_ROLE_FILTER)
         return 0;
@@ -279,7 +279,7 @@ static int open_node(pipeline *pl, unsigned i, diag *d)
         return -1;
     if (param_set_resolve(&n->params, n->api->params, n->def->params, &pl->g->doc,
                           n->def->name, d) ||
-        check_fitted(n, d) || init_stage(n, d) || alloc_output(n, d))
+        check_fitted(n, d) || node_init(n, d) || node_alloc_output(n, d))
         return -1;
     return 0;
 }
@@ -312,7 +312,7 @@ fail:
     return -1;
 }
 
-static void close_node(node *n)
+void node_close(node *n)
 {
     if (n->initialised && n->api && n->api->destroy)
         n->api->destroy(n->self);
@@ -339,7 +339,7 @@ void pipeline_close(pipeline *pl)
     /* Sinks last out, so what they buffered still sees its producers' strings. Reverse
      * topological order does that. */
     for (unsigned k = pl->n; pl->order && k-- > 0;)
-        close_node(&pl->nodes[pl->order[k]]);
+        node_close(&pl->nodes[pl->order[k]]);
     plugin_path_free(&pl->path);
     free(pl->nodes);
     free(pl->order);
@@ -354,7 +354,7 @@ int pipeline_reinit(pipeline *pl, unsigned node_index, diag *d)
         n->api->destroy(n->self);
     n->initialised = 0;
     n->self = NULL;
-    if (init_stage(n, d))
+    if (node_init(n, d))
         return -1;
     if (n->out.channels != before.channels || n->out.rate != before.rate)
         return diag_set(d, "stage '%s': its output changed from %u channels at %g Hz to %u at "

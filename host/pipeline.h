@@ -87,6 +87,13 @@ int pipeline_reinit(pipeline *pl, unsigned node_index, diag *d);
 /* The reason a stage gave, prefixed with its name and, when known, its place in the file. */
 int node_fail(node *n, diag *d, const char *when);
 
+/* Pieces of pipeline_open, for drivers that build a node by hand (stage_driver): initialise
+ * the plugin of a node whose api, params and input layouts are set; allocate its output
+ * buffers; destroy and free everything the node holds. */
+int node_init(node *n, diag *d);
+int node_alloc_output(node *n, diag *d);
+void node_close(node *n);
+
 const char *role_name(uint32_t role);
 
 #endif

@@ -320,6 +320,9 @@ typedef const weft_stage_api *(*weft_stage_entry_fn)(void);
     .abi_major = WEFT_ABI_MAJOR, .abi_minor = WEFT_ABI_MINOR,                                  \
     .struct_size = (uint32_t)sizeof(weft_stage_api)
 
+/* C11 has no M_PI. */
+#define WEFT_PI 3.14159265358979323846
+
 /* ---- small helpers for init -------------------------------------------------------------- */
 
 /* The parameter called `name`, or NULL if the stage did not declare it. */
