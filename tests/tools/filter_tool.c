@@ -4,18 +4,22 @@
  *       from stdin, BLOCK frames per call, and write its float32 output to stdout; the output
  *       layout goes to stderr as "rate R channels C max_frames M".
  *   filter_tool butter KIND ORDER RATE F1 [F2]
- *       print the designed second-order sections, one per line: b0 b1 b2 1 a1 a2 (%.17g). */
+ *       print the designed second-order sections, one per line: b0 b1 b2 1 a1 a2 (%.17g).
+ *   filter_tool notch FREQ Q RATE
+ *       print the notch section the same way. */
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include "butter_design.h"
+#include "notch_design.h"
 #include "stage_driver.h"
 
 static int usage(void)
 {
     fputs("usage: filter_tool run PLUGIN PARAMS CHANNELS RATE BLOCK < in.f32 > out.f32\n"
-          "       filter_tool butter lowpass|highpass|bandpass|bandstop ORDER RATE F1 [F2]\n",
+          "       filter_tool butter lowpass|highpass|bandpass|bandstop ORDER RATE F1 [F2]\n"
+          "       filter_tool notch FREQ Q RATE\n",
           stderr);
     return 2;
 }
@@ -85,6 +89,12 @@ static int run(const char *plugin, const char *params, uint32_t channels, double
     return rc;
 }
 
+static void print_sections(const sos_coef *s, int n)
+{
+    for (int i = 0; i < n; i++)
+        printf("%.17g %.17g %.17g 1 %.17g %.17g\n", s[i].b0, s[i].b1, s[i].b2, s[i].a1, s[i].a2);
+}
+
 static int butter(int argc, char **argv)
 {
     const char *kinds[] = { "lowpass", "highpass", "bandpass", "bandstop" };
@@ -101,8 +111,7 @@ static int butter(int argc, char **argv)
         fputs("filter_tool: butter_design refused the arguments\n", stderr);
         return 1;
     }
-    for (int i = 0; i < n; i++)
-        printf("%.17g %.17g %.17g 1 %.17g %.17g\n", s[i].b0, s[i].b1, s[i].b2, s[i].a1, s[i].a2);
+    print_sections(s, n);
     return 0;
 }
 
@@ -113,5 +122,10 @@ int main(int argc, char **argv)
                    (uint32_t)atoi(argv[6]));
     if (argc >= 6 && !strcmp(argv[1], "butter"))
         return butter(argc - 2, argv + 2);
+    if (argc == 5 && !strcmp(argv[1], "notch")) {
+        sos_coef s = notch_design(atof(argv[2]), atof(argv[3]), atof(argv[4]));
+        print_sections(&s, 1);
+        return 0;
+    }
     return usage();
 }

@@ -15,6 +15,7 @@ static const stage_case cases[] = {
     { "butterworth", "{ kind: lowpass, order: 3, high: 40 }", 19, 500 },
     { "butterworth", "{ kind: highpass, order: 4, low: 0.5 }", 2, 2000 },
     { "butterworth", "{ kind: bandstop, order: 10, low: 45, high: 55 }", 8, 1000 },
+    { "notch", "{ freq: 50, q: 30, harmonics: 3 }", 9, 500 },
 };
 
 static void expect_chunk_invariant(const stage_case *c)

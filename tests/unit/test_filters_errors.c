@@ -40,3 +40,13 @@ Test(filters_errors, messages_point_at_the_parameter_in_the_file)
     const char *msg = filters_init_error("butterworth", "{ low: 8, high: 140 }", 4, 250);
     cr_expect(strncmp(msg, "params:1:", 9) == 0, "no position in \"%s\"", msg);
 }
+
+Test(filters_errors, notch_frequencies_must_lie_below_half_the_rate)
+{
+    expect_error("notch", "{ freq: 150 }", 250,
+                 "freq (150 Hz) must be below half the input rate (125 Hz)");
+    expect_error("notch", "{ freq: 50, harmonics: 3 }", 250,
+                 "harmonic 3 (150 Hz) must be below half the input rate (125 Hz); use "
+                 "harmonics: 2");
+    expect_error("notch", "{ freq: 0 }", 250, "freq (0 Hz) must be above 0 Hz");
+}
