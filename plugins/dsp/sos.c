@@ -77,11 +77,11 @@ int sos_cascade_init(sos_cascade *c, const sos_coef *coef, uint32_t n_sections,
         }
         c->coef[s] = k;
     }
-    c->run_section = section_default;
+    c->kernels = &section_default_set;
 #ifdef HAVE_AVX2_PATH
     __builtin_cpu_init();
     if (__builtin_cpu_supports("avx2"))
-        c->run_section = section_avx2;
+        c->kernels = &section_avx2_set;
 #endif
     return 0;
 }
@@ -129,21 +129,18 @@ void sos_cascade_run(sos_cascade *c, const float *in, float *out, uint32_t frame
         const float *src = in + done * C;
         double *x = c->tile[0], *y = c->tile[1];
         memcpy(x, c->history, hist * sizeof *x);
-        for (size_t i = 0; i < count; i++)
-            x[hist + i] = src[i] * c->gain;
+        c->kernels->load(src, x + hist, count, c->gain);
         for (uint32_t s = 0; s < c->n_sections; s++) {
             double *h_in = c->history + s * hist, *h_out = h_in + hist;
             memcpy(y, h_out, hist * sizeof *y);
-            c->run_section(&c->coef[s], x + hist, y + hist, n, c->channels);
+            c->kernels->section(&c->coef[s], x + hist, y + hist, n, c->channels);
             memcpy(h_in, x + count, hist * sizeof *x); /* the last two input frames */
             double *t = x;
             x = y;
             y = t;
         }
         memcpy(c->history + c->n_sections * hist, x + count, hist * sizeof *x);
-        float *dst = out + done * C;
-        for (size_t i = 0; i < count; i++)
-            dst[i] = (float)x[hist + i];
+        c->kernels->store(x + hist, out + done * C, count);
         done += n;
         c->since_flush += n;
         if (c->since_flush == FLUSH_FRAMES) {

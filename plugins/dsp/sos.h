@@ -3,6 +3,7 @@
 #ifndef DSP_SOS_H
 #define DSP_SOS_H
 
+#include <stddef.h>
 #include <stdint.h>
 
 /* One section H(z) = (b0 + b1 z^-1 + b2 z^-2) / (1 + a1 z^-1 + a2 z^-2). */
@@ -10,8 +11,14 @@ typedef struct sos_coef {
     double b0, b1, b2, a1, a2;
 } sos_coef;
 
-typedef void (*sos_section_fn)(const sos_coef *k, const double *x, double *y, uint32_t frames,
-                               uint32_t channels);
+/* The loops of one instruction set (sos_kernel.h): a section over a tile, and the float32 to
+ * double conversions in and out of it. */
+typedef struct sos_kernels {
+    void (*section)(const sos_coef *k, const double *x, double *y, uint32_t frames,
+                    uint32_t channels);
+    void (*load)(const float *src, double *dst, size_t n, double gain);
+    void (*store)(const double *src, float *dst, size_t n);
+} sos_kernels;
 
 typedef struct sos_cascade {
     uint32_t n_sections, channels;
@@ -23,7 +30,7 @@ typedef struct sos_cascade {
                                  * the frames being filtered */
     uint32_t tile_frames;
     uint32_t since_flush;       /* frames since the stream last crossed a flush point */
-    sos_section_fn run_section;
+    const sos_kernels *kernels;
 } sos_cascade;
 
 /* Copy the sections and allocate the state (zero: the filter starts at rest). Returns 0, or

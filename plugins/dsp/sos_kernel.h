@@ -21,27 +21,38 @@ SOS_GROUP(const sos_coef *k, const double *restrict x, double *restrict y, uint3
 {
     const double b0 = k->b0, b1 = k->b1, b2 = k->b2, a1 = k->a1, a2 = k->a2;
     const size_t L = SOS_LANES;
-    /* y[n-1] stays in a register (it is on the critical path); y[n-2] is read back from the
-     * tile, which leaves registers for four vectors of channels without spilling. */
-    SOS_VEC p1[4], x0, x1, x2, y2;
+    /* Both y[n-1] and y[n-2] stay in registers, taking turns: frame n overwrites y[n-2]
+     * with y[n], so no register is copied and none is spilled with four vectors. */
+    SOS_VEC h1[4], h2[4], x0, x1, x2;
 #pragma GCC unroll 4
-    for (int j = 0; j < vecs; j++)
-        memcpy(&p1[j], y - C + c0 + L * j, sizeof p1[j]);
-    for (uint32_t n = 0; n < frames; n++) {
-        const double *xr = x + n * C + c0;
-        double *yr = y + n * C + c0;
-#pragma GCC unroll 4
-        for (int j = 0; j < vecs; j++) {
-            memcpy(&x0, xr + L * j, sizeof x0);
-            memcpy(&x1, xr - C + L * j, sizeof x1);
-            memcpy(&x2, xr - 2 * C + L * j, sizeof x2);
-            memcpy(&y2, yr - 2 * C + L * j, sizeof y2);
-            SOS_VEC out = monic ? SOS_MONIC_STEP(x0, x1, x2, p1[j], y2)
-                                : SOS_STEP(x0, x1, x2, p1[j], y2);
-            memcpy(yr + L * j, &out, sizeof out);
-            p1[j] = out;
-        }
+    for (int j = 0; j < vecs; j++) {
+        memcpy(&h1[j], y - C + c0 + L * j, sizeof h1[j]);
+        memcpy(&h2[j], y - 2 * C + c0 + L * j, sizeof h2[j]);
     }
+    const double *xr = x + c0;
+    double *yr = y + c0;
+#define SOS_FRAME(older, newer)                                                               \
+    do {                                                                                       \
+        _Pragma("GCC unroll 4") for (int j = 0; j < vecs; j++)                                 \
+        {                                                                                      \
+            memcpy(&x0, xr + L * j, sizeof x0);                                                \
+            memcpy(&x1, xr - C + L * j, sizeof x1);                                            \
+            memcpy(&x2, xr - 2 * C + L * j, sizeof x2);                                        \
+            older[j] = monic ? SOS_MONIC_STEP(x0, x1, x2, newer[j], older[j])                  \
+                             : SOS_STEP(x0, x1, x2, newer[j], older[j]);                       \
+            memcpy(yr + L * j, &older[j], sizeof older[j]);                                    \
+        }                                                                                      \
+        xr += C;                                                                               \
+        yr += C;                                                                               \
+    } while (0)
+    uint32_t n = 0;
+    for (; n + 2 <= frames; n += 2) {
+        SOS_FRAME(h2, h1);
+        SOS_FRAME(h1, h2);
+    }
+    if (n < frames)
+        SOS_FRAME(h2, h1);
+#undef SOS_FRAME
 }
 
 SOS_TARGET static void SOS_KERNEL(const sos_coef *k, const double *restrict x,
@@ -74,6 +85,41 @@ SOS_TARGET static void SOS_KERNEL(const sos_coef *k, const double *restrict x,
                                        yr[c - 2 * C]);
     }
 }
+
+/* Float32 frames in, scaled by the cascade's gain, and out again. */
+typedef float SOS_CAT(SOS_KERNEL, _fvec) __attribute__((vector_size(SOS_LANES * sizeof(float))));
+
+SOS_TARGET static void SOS_CAT(SOS_KERNEL, _load)(const float *restrict src,
+                                                  double *restrict dst, size_t n, double gain)
+{
+    size_t i = 0;
+    for (; i + SOS_LANES <= n; i += SOS_LANES) {
+        SOS_CAT(SOS_KERNEL, _fvec) f;
+        memcpy(&f, src + i, sizeof f);
+        SOS_VEC d = __builtin_convertvector(f, SOS_VEC) * gain;
+        memcpy(dst + i, &d, sizeof d);
+    }
+    for (; i < n; i++)
+        dst[i] = src[i] * gain;
+}
+
+SOS_TARGET static void SOS_CAT(SOS_KERNEL, _store)(const double *restrict src,
+                                                   float *restrict dst, size_t n)
+{
+    size_t i = 0;
+    for (; i + SOS_LANES <= n; i += SOS_LANES) {
+        SOS_VEC d;
+        memcpy(&d, src + i, sizeof d);
+        SOS_CAT(SOS_KERNEL, _fvec) f = __builtin_convertvector(d, SOS_CAT(SOS_KERNEL, _fvec));
+        memcpy(dst + i, &f, sizeof f);
+    }
+    for (; i < n; i++)
+        dst[i] = (float)src[i];
+}
+
+static const sos_kernels SOS_CAT(SOS_KERNEL, _set) = {
+    SOS_KERNEL, SOS_CAT(SOS_KERNEL, _load), SOS_CAT(SOS_KERNEL, _store)
+};
 
 #undef SOS_VEC
 #undef SOS_GROUP
