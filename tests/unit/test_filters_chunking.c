@@ -16,6 +16,9 @@ static const stage_case cases[] = {
     { "butterworth", "{ kind: highpass, order: 4, low: 0.5 }", 2, 2000 },
     { "butterworth", "{ kind: bandstop, order: 10, low: 45, high: 55 }", 8, 1000 },
     { "notch", "{ freq: 50, q: 30, harmonics: 3 }", 9, 500 },
+    { "fir", "{ kind: bandpass, low: 8, high: 30, taps: 63, engine: direct }", 13, 250 },
+    { "fir", "{ kind: bandpass, low: 8, high: 30, taps: 701, engine: fft }", 21, 250 },
+    { "fir", "{ coefficients: [0.25, -1, 2.5] }", 3, 250 },
 };
 
 static void expect_chunk_invariant(const stage_case *c)

@@ -14,6 +14,8 @@ Test(filters_errors, band_edge_above_half_the_rate_names_edge_and_limit)
 {
     expect_error("butterworth", "{ low: 8, high: 140 }", 250,
                  "high (140 Hz) must be below half the input rate (125 Hz)");
+    expect_error("fir", "{ kind: bandpass, low: 8, high: 140, taps: 31 }", 250,
+                 "high (140 Hz) must be below half the input rate (125 Hz)");
     expect_error("butterworth", "{ kind: highpass, low: 600 }", 1000,
                  "low (600 Hz) must be below half the input rate (500 Hz)");
     expect_error("butterworth", "{ kind: lowpass, high: 125 }", 250,
@@ -49,4 +51,16 @@ Test(filters_errors, notch_frequencies_must_lie_below_half_the_rate)
                  "harmonic 3 (150 Hz) must be below half the input rate (125 Hz); use "
                  "harmonics: 2");
     expect_error("notch", "{ freq: 0 }", 250, "freq (0 Hz) must be above 0 Hz");
+}
+
+Test(filters_errors, fir_length_must_be_given_or_derivable)
+{
+    expect_error("fir", "{ high: 30 }", 250,
+                 "give taps, or transition (the width of the transition band in Hz)");
+    expect_error("fir", "{ kind: highpass, low: 30, taps: 64 }", 250,
+                 "taps (64) must be odd for a highpass");
+    expect_error("fir", "{ low: 3, coefficients: [0.5, 0.5] }", 250,
+                 "coefficients are given, so the design parameters low and high would be "
+                 "ignored");
+    expect_error("fir", "{ high: 30, transition: 0.001 }", 250, "widen the transition");
 }
