@@ -19,6 +19,9 @@ static const stage_case cases[] = {
     { "fir", "{ kind: bandpass, low: 8, high: 30, taps: 63, engine: direct }", 13, 250 },
     { "fir", "{ kind: bandpass, low: 8, high: 30, taps: 701, engine: fft }", 21, 250 },
     { "fir", "{ coefficients: [0.25, -1, 2.5] }", 3, 250 },
+    { "envelope", "{ low: 20, high: 450 }", 6, 1000 },
+    { "envelope", "{ smooth: rms, window: 0.05 }", 4, 1000 },
+    { "envelope", "{ detector: square, cutoff: 8 }", 2, 2000 },
 };
 
 static void expect_chunk_invariant(const stage_case *c)

@@ -64,3 +64,15 @@ Test(filters_errors, fir_length_must_be_given_or_derivable)
                  "ignored");
     expect_error("fir", "{ high: 30, transition: 0.001 }", 250, "widen the transition");
 }
+
+Test(filters_errors, envelope_band_window_and_detector_are_checked)
+{
+    expect_error("envelope", "{ low: 20, high: 450 }", 500,
+                 "high (450 Hz) must be below half the input rate (250 Hz)");
+    expect_error("envelope", "{ smooth: rms, window: 0.0001 }", 1000,
+                 "window (0.0001 s) must span 1 to 2^24 samples at 1000 Hz");
+    expect_error("envelope", "{ smooth: rms, detector: rectify }", 1000,
+                 "a moving RMS squares by definition");
+    expect_error("envelope", "{ cutoff: 600 }", 1000,
+                 "cutoff (600 Hz) must be below half the input rate (500 Hz)");
+}
