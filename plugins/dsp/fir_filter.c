@@ -107,13 +107,18 @@ int fir_filter_init(fir_filter *f, const double *h, uint32_t taps, uint32_t chan
         return -1;
     }
     f->end = f->keep; /* the stream starts after `keep` frames of silence */
-    f->direct = fir_direct_default;
+    f->direct = fir_direct_kernel();
+    return 0;
+}
+
+fir_direct_fn fir_direct_kernel(void)
+{
 #ifdef HAVE_AVX2_PATH
     __builtin_cpu_init();
     if (__builtin_cpu_supports("avx2"))
-        f->direct = fir_direct_avx2;
+        return fir_direct_avx2;
 #endif
-    return 0;
+    return fir_direct_default;
 }
 
 void fir_filter_free(fir_filter *f)

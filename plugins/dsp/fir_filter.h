@@ -39,6 +39,11 @@ int fir_filter_init(fir_filter *f, const double *h, uint32_t taps, uint32_t chan
                     uint32_t hop);
 void fir_filter_free(fir_filter *f);
 
+/* The fastest direct-convolution loop this processor runs (the same bits on every path):
+ * out[i] = (sum_k h[k] x[i - k]) + tail[i] for frames i, x rows C floats apart, tail may be
+ * NULL. For stages that convolve with kernels of their own (resampling). */
+fir_direct_fn fir_direct_kernel(void);
+
 /* Filter `frames` frames. Allocation-free; any split of the stream into calls gives
  * bit-identical output. `out` must not overlap `in`. */
 void fir_filter_run(fir_filter *f, const float *in, float *out, uint32_t frames);

@@ -22,6 +22,9 @@ static const stage_case cases[] = {
     { "envelope", "{ low: 20, high: 450 }", 6, 1000 },
     { "envelope", "{ smooth: rms, window: 0.05 }", 4, 1000 },
     { "envelope", "{ detector: square, cutoff: 8 }", 2, 2000 },
+    { "resample", "{ down: 4 }", 7, 1000 },
+    { "resample", "{ up: 3, down: 2 }", 5, 500 },
+    { "resample", "{ rate: 250 }", 17, 2000 },
 };
 
 static void expect_chunk_invariant(const stage_case *c)

@@ -28,10 +28,12 @@ Test(filters_errors, butterworth_edges_must_fit_the_kind)
                  "low (30 Hz) must be below high (8 Hz)");
     expect_error("butterworth", "{ kind: lowpass, low: 3, high: 30 }", 250,
                  "a lowpass has no low edge; give high (its cutoff) only");
-    expect_error("butterworth", "{ kind: bandstop, low: 45 }", 250, "a bandstop needs low and high, its band edges in Hz");
+    expect_error("butterworth", "{ kind: bandstop, low: 45 }", 250,
+                 "a bandstop needs low and high, its band edges in Hz");
     expect_error("butterworth", "{ kind: highpass, high: 45 }", 250,
                  "a highpass has no high edge");
-    expect_error("butterworth", "{ kind: highpass }", 250, "a highpass needs low, its cutoff in Hz");
+    expect_error("butterworth", "{ kind: highpass }", 250,
+                 "a highpass needs low, its cutoff in Hz");
     expect_error("butterworth", "{ low: 8, high: 30, order: 11 }", 250, "order");
 }
 
@@ -75,4 +77,13 @@ Test(filters_errors, envelope_band_window_and_detector_are_checked)
                  "a moving RMS squares by definition");
     expect_error("envelope", "{ cutoff: 600 }", 1000,
                  "cutoff (600 Hz) must be below half the input rate (500 Hz)");
+}
+
+Test(filters_errors, resample_factors_are_checked)
+{
+    expect_error("resample", "{ rate: 250 }", 250, "up and down are both 1: nothing to resample");
+    expect_error("resample", "{ rate: 333.3 }", 1000,
+                 "rate 333.3 Hz from 1000 Hz is not a ratio of whole rates");
+    expect_error("resample", "{ rate: 250, down: 4 }", 1000, "give rate, or up and down");
+    expect_error("resample", "{ rate: 1001 }", 1000, "needs up 1001 / down 1000");
 }
