@@ -25,6 +25,10 @@ static const stage_case cases[] = {
     { "resample", "{ down: 4 }", 7, 1000 },
     { "resample", "{ up: 3, down: 2 }", 5, 500 },
     { "resample", "{ rate: 250 }", 17, 2000 },
+    { "reref", "{ reference: average }", 9, 250 },
+    { "reref", "{ reference: '4' }", 6, 250 },
+    { "detrend", "{ method: highpass, cutoff: 0.5 }", 5, 500 },
+    { "detrend", "{ method: mean, window: 0.5 }", 3, 500 },
 };
 
 static void expect_chunk_invariant(const stage_case *c)

@@ -87,3 +87,15 @@ Test(filters_errors, resample_factors_are_checked)
     expect_error("resample", "{ rate: 250, down: 4 }", 1000, "give rate, or up and down");
     expect_error("resample", "{ rate: 1001 }", 1000, "needs up 1001 / down 1000");
 }
+
+Test(filters_errors, reref_and_detrend_parameters_are_checked)
+{
+    expect_error("reref", "{ reference: Cz }", 250,
+                 "reference 'Cz' is not a channel of the input; give average, a channel label "
+                 "or a number from 1 to 4");
+    expect_error("reref", "{ reference: '5' }", 250, "reference '5' is not a channel");
+    expect_error("detrend", "{ cutoff: 200 }", 250,
+                 "cutoff (200 Hz) must be above 0 Hz and below half the input rate (125 Hz)");
+    expect_error("detrend", "{ method: mean, window: 0.001 }", 250,
+                 "window (0.001 s) must span 2 to 2^26 samples at 250 Hz");
+}
