@@ -11,6 +11,8 @@
  * however the stream is cut into calls. */
 #include "fir_filter.h"
 
+#include "simd_level.h"
+
 #include <stdlib.h>
 #include <string.h>
 
@@ -114,8 +116,7 @@ int fir_filter_init(fir_filter *f, const double *h, uint32_t taps, uint32_t chan
 fir_direct_fn fir_direct_kernel(void)
 {
 #ifdef HAVE_AVX2_PATH
-    __builtin_cpu_init();
-    if (__builtin_cpu_supports("avx2"))
+    if (simd_level() >= SIMD_AVX2)
         return fir_direct_avx2;
 #endif
     return fir_direct_default;

@@ -16,6 +16,8 @@
  * stays float32 in and out. */
 #include "sos.h"
 
+#include "simd_level.h"
+
 #include <math.h>
 #include <stdlib.h>
 #include <string.h>
@@ -36,15 +38,23 @@
 #define SOS_KERNEL section_default
 #define SOS_TARGET
 #define SOS_LANES 2
+#define SOS_VECS 4
 #include "sos_kernel.h"
 
 #if defined(__x86_64__) && (defined(__GNUC__) || defined(__clang__))
 #define HAVE_AVX2_PATH 1
-/* Chosen at init when the processor has AVX2. No fused multiply-add (the plugins build with
+/* Chosen at init when the processor has AVX2 or AVX-512F (simd_level.h). No fused multiply-add (the plugins build with
  * -ffp-contract=off), so the results equal the default path's bit for bit. */
 #define SOS_KERNEL section_avx2
 #define SOS_TARGET __attribute__((target("avx2")))
 #define SOS_LANES 4
+#define SOS_VECS 4
+#include "sos_kernel.h"
+/* 32 registers of 8 doubles: 64 channels' history at once. */
+#define SOS_KERNEL section_avx512
+#define SOS_TARGET __attribute__((target("avx512f")))
+#define SOS_LANES 8
+#define SOS_VECS 8
 #include "sos_kernel.h"
 #endif
 
@@ -79,9 +89,11 @@ int sos_cascade_init(sos_cascade *c, const sos_coef *coef, uint32_t n_sections,
     }
     c->kernels = &section_default_set;
 #ifdef HAVE_AVX2_PATH
-    __builtin_cpu_init();
-    if (__builtin_cpu_supports("avx2"))
+    int level = simd_level();
+    if (level == SIMD_AVX2)
         c->kernels = &section_avx2_set;
+    else if (level == SIMD_AVX512)
+        c->kernels = &section_avx512_set;
 #endif
     return 0;
 }

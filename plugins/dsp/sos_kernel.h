@@ -3,6 +3,7 @@
  *   SOS_KERNEL   the function's name
  *   SOS_TARGET   its attributes (e.g. __attribute__((target("avx2"))), or nothing)
  *   SOS_LANES    doubles per vector register on that target (2 for SSE2/NEON, 4 for AVX2)
+ *   SOS_VECS     vectors of channels whose history fits in its registers at once
  * Every path does the same operations in the same order on each channel, so all of them give
  * the same bits; they differ only in how many channels share one instruction. */
 
@@ -23,8 +24,8 @@ SOS_GROUP(const sos_coef *k, const double *restrict x, double *restrict y, uint3
     const size_t L = SOS_LANES;
     /* Both y[n-1] and y[n-2] stay in registers, taking turns: frame n overwrites y[n-2]
      * with y[n], so no register is copied and none is spilled with four vectors. */
-    SOS_VEC h1[4], h2[4], x0, x1, x2;
-#pragma GCC unroll 4
+    SOS_VEC h1[SOS_VECS], h2[SOS_VECS], x0, x1, x2;
+#pragma GCC unroll 8
     for (int j = 0; j < vecs; j++) {
         memcpy(&h1[j], y - C + c0 + L * j, sizeof h1[j]);
         memcpy(&h2[j], y - 2 * C + c0 + L * j, sizeof h2[j]);
@@ -33,7 +34,7 @@ SOS_GROUP(const sos_coef *k, const double *restrict x, double *restrict y, uint3
     double *yr = y + c0;
 #define SOS_FRAME(older, newer)                                                               \
     do {                                                                                       \
-        _Pragma("GCC unroll 4") for (int j = 0; j < vecs; j++)                                 \
+        _Pragma("GCC unroll 8") for (int j = 0; j < vecs; j++)                                 \
         {                                                                                      \
             memcpy(&x0, xr + L * j, sizeof x0);                                                \
             memcpy(&x1, xr - C + L * j, sizeof x1);                                            \
@@ -62,11 +63,11 @@ SOS_TARGET static void SOS_KERNEL(const sos_coef *k, const double *restrict x,
     const int monic = k->b0 == 1;
     size_t c0 = 0;
     /* Each call has constant `vecs` and `monic` once inlined: four specialised loops. */
-    for (; c0 + 4 * L <= C; c0 += 4 * L) {
+    for (; c0 + SOS_VECS * L <= C; c0 += SOS_VECS * L) {
         if (monic)
-            SOS_GROUP(k, x, y, frames, C, c0, 4, 1);
+            SOS_GROUP(k, x, y, frames, C, c0, SOS_VECS, 1);
         else
-            SOS_GROUP(k, x, y, frames, C, c0, 4, 0);
+            SOS_GROUP(k, x, y, frames, C, c0, SOS_VECS, 0);
     }
     for (; c0 + L <= C; c0 += L) {
         if (monic)
@@ -126,3 +127,4 @@ static const sos_kernels SOS_CAT(SOS_KERNEL, _set) = {
 #undef SOS_KERNEL
 #undef SOS_TARGET
 #undef SOS_LANES
+#undef SOS_VECS

@@ -64,3 +64,39 @@ Test(filters_chunking, every_stage_gives_the_same_bits_for_any_block_size)
     for (size_t i = 0; i < sizeof cases / sizeof cases[0]; i++)
         expect_chunk_invariant(&cases[i]);
 }
+
+/* The vector paths (default SSE2/NEON-width, AVX2, AVX-512) do the same operations in the same
+ * order: capping the path with WEFT_SIMD must not change one bit. */
+Test(filters_chunking, vector_paths_give_identical_bits)
+{
+    const size_t frames = 2000;
+    const uint32_t channels = 37; /* groups of 16 and 32 channels, vectors and a remainder */
+    float *x = malloc(frames * channels * sizeof *x);
+    cr_assert(x != NULL);
+    filters_noise(x, frames * channels, 5);
+    const char *stages[][2] = {
+        { "butterworth", "{ kind: bandpass, order: 6, low: 8, high: 30 }" },
+        { "fir", "{ kind: bandpass, low: 8, high: 30, taps: 101, engine: direct }" },
+        { "fir", "{ kind: bandpass, low: 8, high: 30, taps: 1001, engine: fft }" },
+        { "resample", "{ up: 2, down: 3 }" },
+    };
+    const char *paths[] = { "default", "avx2" };
+    for (size_t s = 0; s < sizeof stages / sizeof stages[0]; s++) {
+        unsetenv("WEFT_SIMD");
+        filters_output best = filters_run_blocks(stages[s][0], stages[s][1], channels, 500, x,
+                                                 frames, 50);
+        for (int p = 0; p < 2; p++) {
+            setenv("WEFT_SIMD", paths[p], 1);
+            filters_output y = filters_run_blocks(stages[s][0], stages[s][1], channels, 500, x,
+                                                  frames, 50);
+            cr_expect(y.frames == best.frames &&
+                          memcmp(y.data, best.data, y.frames * y.channels * sizeof *y.data) == 0,
+                      "%s %s: the %s path differs from the fastest", stages[s][0], stages[s][1],
+                      paths[p]);
+            free(y.data);
+        }
+        unsetenv("WEFT_SIMD");
+        free(best.data);
+    }
+    free(x);
+}
