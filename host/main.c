@@ -14,6 +14,7 @@ static const char usage[] =
     "commands:\n"
     "  check GRAPH        validate a graph file and print it resolved\n"
     "  run GRAPH          run a graph (see weft run --help)\n"
+    "  replay GRAPH --data REC  run a graph on a recording and score it against its cues\n"
     "  stages [NAME]      list the plugins found and their parameters\n"
     "  version            print the weft and stage ABI versions\n"
     "\n"
@@ -40,6 +41,8 @@ int main(int argc, char **argv)
         return cli_check(argc - 1, argv + 1);
     if (!strcmp(cmd, "run"))
         return cli_run(argc - 1, argv + 1);
+    if (!strcmp(cmd, "replay"))
+        return cli_replay(argc - 1, argv + 1);
     if (!strcmp(cmd, "stages"))
         return cli_stages(argc - 1, argv + 1);
     fprintf(stderr, "weft: unknown command '%s'\n\n%s", cmd, usage);
