@@ -370,6 +370,10 @@ int pipeline_rewind(pipeline *pl, diag *d)
         node *n = &pl->nodes[pl->order[k]];
         /* A skipped stage does not run until the next rewind, which re-initialises it; a
          * skipped sink is not re-opened, so its output file is left alone. */
+        /* Upstream stages were re-initialised first (graph order): their label strings are
+         * new, so take their layouts again. */
+        for (unsigned i = 0; i < n->n_in; i++)
+            n->in_layouts[i] = pl->nodes[n->in_node[i]].out;
         if (!n->skip && pipeline_reinit(pl, n->index, d))
             return -1;
         n->produced = 0;
