@@ -35,7 +35,7 @@ static uint64_t frames_left(const run *r, const node *n)
 
 static int source_done(const run *r, const node *n)
 {
-    return n->ended || frames_left(r, n) == 0;
+    return n->skip || n->ended || frames_left(r, n) == 0;
 }
 
 static int runtime_fail(node *n, diag *d, uint64_t index, double rate)
@@ -60,7 +60,7 @@ static void publish_markers(run *r, node *src)
             r->hooks->on_marker(r->hooks->ctx, src, mk, t);
         for (unsigned i = 0; i < pl->n; i++) {
             node *n = &pl->nodes[i];
-            if (n->role == WEFT_ROLE_READOUT)
+            if (n->role == WEFT_ROLE_READOUT && !n->skip)
                 query_plan_marker(&n->plan, mk->label, t);
         }
     }
@@ -158,6 +158,8 @@ static int propagate(run *r)
     pipeline *pl = r->pl;
     for (unsigned k = 0; k < pl->n; k++) {
         node *n = &pl->nodes[pl->order[k]];
+        if (n->skip)
+            continue;
         if (n->role == WEFT_ROLE_SOURCE) {
             if (n->out_block.frames && r->hooks && r->hooks->on_block)
                 r->hooks->on_block(r->hooks->ctx, n, &n->out_block);
@@ -193,7 +195,7 @@ static int deliver(run *r, node *readout, const weft_result *res)
     pipeline *pl = r->pl;
     for (unsigned i = 0; i < pl->n; i++) {
         node *n = &pl->nodes[i];
-        if (n->role != WEFT_ROLE_SINK || !n->api->deliver)
+        if (n->role != WEFT_ROLE_SINK || !n->api->deliver || n->skip)
             continue;
         for (unsigned k = 0; k < n->n_in; k++) {
             if (n->in_node[k] != readout->index)
@@ -263,7 +265,7 @@ static int run_queries(run *r)
 {
     for (unsigned k = 0; k < r->pl->n; k++) {
         node *n = &r->pl->nodes[r->pl->order[k]];
-        if (n->role == WEFT_ROLE_READOUT && run_due_queries(r, n))
+        if (n->role == WEFT_ROLE_READOUT && !n->skip && run_due_queries(r, n))
             return -1;
     }
     return 0;

@@ -362,3 +362,30 @@ int pipeline_reinit(pipeline *pl, unsigned node_index, diag *d)
                         before.rate, n->out.channels, n->out.rate);
     return 0;
 }
+
+int pipeline_rewind(pipeline *pl, diag *d)
+{
+    pl->n_watched = 0; /* sources register their descriptors again in init */
+    for (unsigned k = 0; k < pl->n; k++) {
+        node *n = &pl->nodes[pl->order[k]];
+        /* A skipped stage does not run until the next rewind, which re-initialises it; a
+         * skipped sink is not re-opened, so its output file is left alone. */
+        /* Upstream stages were re-initialised first (graph order): their label strings are
+         * new, so take their layouts again. */
+        for (unsigned i = 0; i < n->n_in; i++)
+            n->in_layouts[i] = pl->nodes[n->in_node[i]].out;
+        if (!n->skip && pipeline_reinit(pl, n->index, d))
+            return -1;
+        n->produced = 0;
+        n->ended = 0;
+        n->seq = 0;
+        n->out_block.frames = 0;
+        n->out_block.n_markers = 0;
+        for (unsigned i = 0; n->rings && i < n->n_in; i++)
+            n->rings[i].end = 0;
+        if (n->role == WEFT_ROLE_READOUT)
+            query_plan_init(&n->plan, n->plan.every, n->plan.after, n->plan.labels,
+                            n->plan.n_labels, n->plan.earliest);
+    }
+    return 0;
+}

@@ -30,6 +30,8 @@ typedef struct node {
     param_set params;
     void *self;
     int initialised;
+    int skip;                   /* the loop leaves this stage out (fit passes: stages not yet
+                                 * fitted, what depends on them, sinks) */
     weft_host host;
     char error[NODE_ERROR_MAX]; /* what the stage reported with host->error() */
     const char *error_param;    /* ... and the parameter it named, if any */
@@ -83,6 +85,12 @@ void pipeline_close(pipeline *pl);
 /* Re-initialise one stage with new parameter values (after fit). The layouts must not change
  * the stage's output channels or rate. */
 int pipeline_reinit(pipeline *pl, unsigned node_index, diag *d);
+
+/* Start every stream again from sample 0, as if just opened: each stage is re-initialised
+ * with its current parameters (so learned values written since take effect) and the loop's
+ * counters, rings and query plans are reset. Stages with `skip` set are not re-initialised
+ * (they do not run until a later rewind without skip). Used by `weft fit` between replay passes. */
+int pipeline_rewind(pipeline *pl, diag *d);
 
 /* The reason a stage gave, prefixed with its name and, when known, its place in the file. */
 int node_fail(node *n, diag *d, const char *when);
