@@ -14,7 +14,7 @@ static const weft_param_spec params[] = {
       "file to write; - is standard output" },
     { "buffer", WEFT_PARAM_INTEGER, 0, "1048576", 4096, 1073741824, "bytes", NULL,
       "queue between the run loop and the writer thread; rows are dropped if it fills" },
-    { NULL },
+    WEFT_PARAMS_END,
 };
 
 typedef struct csv {
