@@ -51,6 +51,21 @@ check "runtime failure names stage, sample and time" \
     grep -q "stage 'amp' failed at sample 1000 (4.000 s): the test amplifier stopped responding" "$tmp/err"
 check "results before the failure are kept (0.5 .. 4.0 s = 8)" test "$(wc -l < "$tmp/fail.jsonl")" -eq 8
 
+# The session log records every stage with its plugin file hash and the failure at the end.
+"$WEFT" run "$tmp/fail.yaml" --session-log "$tmp/session.jsonl" 2>/dev/null
+"$PYTHON" - "$tmp/session.jsonl" <<'PY'
+import json, sys
+records = [json.loads(line) for line in open(sys.argv[1])]
+assert records[0]["event"] == "start" and len(records[0]["graph_fnv1a64"]) == 16, records[0]
+stages = [r["name"] for r in records if r["event"] == "stage"]
+assert stages == ["amp", "probe", "out"], stages
+assert records[1]["params"]["fail_at"] == 1000, records[1]
+end = records[-1]
+assert end["event"] == "end" and end["status"] == "failed", end
+assert "failed at sample 1000" in end["error"] and end["results"] == 8, end
+PY
+check "session log is JSON with stages, hashes, parameters and the failure" test $? -eq 0
+
 # A paced run stopped by SIGTERM closes its outputs: every line complete, header first.
 cat > "$tmp/paced.yaml" <<G
 weft: 1
