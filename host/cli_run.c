@@ -6,15 +6,20 @@
 
 #include "cli.h"
 #include "loop.h"
+#include "session_log.h"
 
 static const char help[] =
-    "usage: weft run GRAPH [--duration SECONDS] [--realtime] [--block FRAMES] [--quiet]\n"
+    "usage: weft run GRAPH [--duration SECONDS] [--realtime] [--block FRAMES]\n"
+    "                      [--session-log FILE] [--quiet]\n"
     "\n"
     "Runs the graph: sources -> filters -> readouts (queried on schedule) -> sinks.\n"
     "  --duration S   stop after S seconds of stream time\n"
     "  --realtime     pace the sources to the wall clock, as a live amplifier would\n"
     "  --block N      frames per source request (default: 20 ms of each stream); any value\n"
     "                 gives the same results\n"
+    "  --session-log FILE  write a JSON-lines record of the run: graph and plugin file\n"
+    "                 hashes, versions, every parameter value, and at the end results,\n"
+    "                 latency and errors\n"
     "  --quiet        no summary on stderr\n"
     "Without --realtime, bounded sources (recordings) and any run with --duration go as fast\n"
     "as possible; an unbounded source without --duration is paced to the clock.\n"
@@ -32,6 +37,7 @@ static void on_signal(int sig)
 
 typedef struct run_args {
     const char *graph;
+    const char *session_log;
     double duration;
     unsigned long block;
     int realtime, quiet;
@@ -49,6 +55,12 @@ static int parse_args(int argc, char **argv, run_args *a)
             a->realtime = 1;
         } else if (!strcmp(arg, "--quiet")) {
             a->quiet = 1;
+        } else if (!strcmp(arg, "--session-log")) {
+            if (i + 1 >= argc) {
+                fprintf(stderr, "weft: --session-log needs a file name\n");
+                return -1;
+            }
+            a->session_log = argv[++i];
         } else if (!strcmp(arg, "--duration")) {
             if (cli_number(arg, i + 1 < argc ? argv[++i] : NULL, &a->duration))
                 return -1;
@@ -124,9 +136,17 @@ int cli_run(int argc, char **argv)
     loop_options lo = { .realtime = a.realtime || (a.duration <= 0 && has_unbounded_source(&pl)),
                         .duration = a.duration,
                         .stop = &stop_requested };
+    FILE *log = NULL;
+    if (a.session_log && !(log = session_log_open(a.session_log, &pl, &d))) {
+        fprintf(stderr, "weft: %s\n", d.msg);
+        pipeline_close(&pl);
+        graph_free(&g);
+        return EXIT_FAILED;
+    }
     loop_stats st;
     rc = loop_run(&pl, &lo, NULL, &st, &d);
     pipeline_close(&pl); /* sinks flush and close here, also after a failure */
+    session_log_close(log, &st, rc ? d.msg : NULL);
     if (rc)
         fprintf(stderr, "weft: %s\n", d.msg);
     if (!a.quiet)

@@ -163,6 +163,9 @@ static int read_value(resolver *r, const weft_param_spec *s, const ynode *n, wef
 /* Defaults are written as graph text, so they go through the same parser and checks. */
 static int read_default(resolver *r, const weft_param_spec *s, weft_param *p)
 {
+    /* Text defaults are taken as written: "-" or "yes" must not turn into YAML structure. */
+    if (s->type == WEFT_PARAM_STRING)
+        return (p->text = strdup(s->default_text)) ? 0 : diag_set(r->d, "out of memory");
     ydoc doc;
     diag inner = { 0 };
     char name[256];

@@ -27,7 +27,7 @@ static const weft_param_spec params[] = {
       "learned: one row per class, one column per channel of all inputs in order" },
     { "bias", WEFT_PARAM_NUMBERS, WEFT_PARAM_LEARNED, NULL, WEFT_NO_RANGE, "", NULL,
       "learned: one value per class" },
-    { NULL },
+    WEFT_PARAMS_END,
 };
 
 typedef struct logvar_lda {
