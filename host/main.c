@@ -43,6 +43,8 @@ int main(int argc, char **argv)
         return cli_check(argc - 1, argv + 1);
     if (!strcmp(cmd, "run"))
         return cli_run(argc - 1, argv + 1);
+    if (!strcmp(cmd, "fit"))
+        return cli_fit(argc - 1, argv + 1);
     if (!strcmp(cmd, "stages"))
         return cli_stages(argc - 1, argv + 1);
     if (!strcmp(cmd, "status") || !strcmp(cmd, "stop") || !strcmp(cmd, "swap"))
