@@ -283,9 +283,13 @@ static int check_default(const weft_param_spec *s, check_result *r)
     int rc = param_set_resolve(&ps, one, doc.root, &doc, "stage", &d);
     param_set_free(&ps);
     ydoc_free(&doc);
+    /* The resolver's message names the stage and the place in the text; the reason is last. */
+    const char *why = d.msg, *p;
+    while ((p = strstr(why, "': ")))
+        why = p + 3;
     if (rc)
-        return check_set(r, CHECK_FAIL, "default of '%s' (\"%s\") is not valid: %s", s->name,
-                         s->default_text, d.msg);
+        return check_set(r, CHECK_FAIL, "the default of '%s' (\"%s\") is not valid: %s",
+                         s->name, s->default_text, why);
     return 0;
 }
 
@@ -838,8 +842,8 @@ static void check_destroy(void *ctx, check_result *r)
     }
     alloc_counts n = alloc_watch_counts();
     if (n.allocs != n.frees)
-        check_set(r, CHECK_FAIL, "%lld allocations not freed after destroy (%llu allocations, "
-                  "%llu frees from open to close)", (long long)(n.allocs - n.frees),
+        check_set(r, CHECK_FAIL, "not freed after destroy: %lld of %llu allocations (%llu "
+                  "frees from open to close)", (long long)(n.allocs - n.frees),
                   (unsigned long long)n.allocs, (unsigned long long)n.frees);
     else
         check_set(r, CHECK_PASS, "destroy freed all %llu allocations of a second lifecycle",
