@@ -15,6 +15,7 @@ typedef struct run {
     loop_stats *st;
     diag *d;
     double t0;                  /* monotonic clock at start */
+    double last_service;        /* when between_rounds last ran */
 } run;
 
 static double mono_seconds(void)
@@ -106,6 +107,8 @@ static int pull_source(run *r, node *n, uint32_t request)
 static int run_filter(run *r, node *n)
 {
     const weft_block *in = &n->in_blocks[0];
+    if (n->history.data) /* kept so a replacement can be warmed up (swap) */
+        ring_push(&n->history, in->data, in->frames);
     weft_block *b = &n->out_block;
     *b = (weft_block){
         .data = n->out_data,
@@ -283,6 +286,18 @@ static int round_for(run *r, node *src, uint32_t request)
     return 0;
 }
 
+/* Returns 1 if the hook asked to stop, -1 on failure. */
+static int service(run *r)
+{
+    if (!r->hooks || !r->hooks->between_rounds)
+        return 0;
+    double now = mono_seconds();
+    if (now - r->last_service < r->opt->service_every)
+        return 0;
+    r->last_service = now;
+    return r->hooks->between_rounds(r->hooks->ctx, r->d);
+}
+
 static uint32_t request_for(const run *r, const node *n, uint64_t want)
 {
     uint64_t left = frames_left(r, n);
@@ -320,6 +335,9 @@ static int run_fast(run *r)
     for (;;) {
         if (r->opt->stop && *r->opt->stop)
             return 0;
+        int svc = service(r);
+        if (svc)
+            return svc < 0 ? -1 : 0;
         node *next = NULL;
         for (unsigned i = 0; i < pl->n; i++) {
             node *n = &pl->nodes[i];
@@ -346,6 +364,9 @@ static int run_paced(run *r)
     for (;;) {
         if (r->opt->stop && *r->opt->stop)
             return 0;
+        int svc = service(r);
+        if (svc)
+            return svc < 0 ? -1 : 0;
         double now = mono_seconds() - r->t0, next_due = 0.01;
         int active = 0;
         for (unsigned i = 0; i < pl->n; i++) {
@@ -378,7 +399,7 @@ int loop_run(pipeline *pl, const loop_options *opt, const loop_hooks *hooks, loo
     memset(st, 0, sizeof *st);
     if (latency_init(&st->round_us))
         return diag_set(d, "out of memory");
-    run r = { pl, opt, hooks, st, d, mono_seconds() };
+    run r = { pl, opt, hooks, st, d, mono_seconds(), 0 };
     int rc = opt->realtime ? run_paced(&r) : run_fast(&r);
     /* Queries that became due with the last blocks. */
     if (rc == 0)

@@ -43,12 +43,17 @@ typedef struct node {
     weft_block *in_blocks;      /* scratch: this round's view of each input */
 
     weft_layout out;            /* what the stage produces */
+    char **labels;              /* host copies of out.labels: downstream stages keep pointers
+                                 * to them, and they must outlive a re-initialised stage */
+    uint32_t label_count;
     float *out_data;            /* out.max_frames * out.channels */
     weft_marker *out_markers;
     char (*marker_text)[NODE_LABEL_MAX]; /* sources: labels copied out of the plugin */
     weft_block out_block;       /* this round's output; frames == 0 if none */
     uint64_t produced;          /* frames produced so far = next output sample index */
     int ended;
+
+    ring history;               /* filters, when swappable: recent input for warm-up */
 
     /* readouts */
     ring *rings;
@@ -62,6 +67,8 @@ typedef struct node {
 typedef struct pipeline_options {
     uint32_t block;             /* frames per source request (0: 20 ms of stream) */
     int for_fit;                /* fittable stages may be unfitted */
+    double swap_warmup;         /* > 0: keep this many seconds of each filter's input, so a
+                                 * swapped-in filter can be warmed up on it */
 } pipeline_options;
 
 struct pipeline {

@@ -107,6 +107,27 @@ FILE *session_log_open(const char *path, const pipeline *pl, diag *d)
     return f;
 }
 
+void session_log_swap(FILE *f, const char *stage, const char *plugin, const char *params,
+                      uint64_t index, double time, uint64_t warmup_frames)
+{
+    if (!f)
+        return;
+    char now[32];
+    utc_now(now, sizeof now);
+    fprintf(f, "{\"event\":\"swap\",\"utc\":\"%s\",\"stage\":", now);
+    json_string(f, stage);
+    fputs(",\"plugin\":", f);
+    if (plugin)
+        json_string(f, plugin);
+    else
+        fputs("null", f);
+    fputs(",\"params\":", f);
+    json_string(f, params ? params : "");
+    fprintf(f, ",\"index\":%llu,\"time\":%.6f,\"warmup_frames\":%llu}\n",
+            (unsigned long long)index, time, (unsigned long long)warmup_frames);
+    fflush(f);
+}
+
 void session_log_close(FILE *f, const loop_stats *st, const char *error)
 {
     if (!f)

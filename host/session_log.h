@@ -18,6 +18,10 @@ int file_fnv1a64(const char *path, uint64_t *out);
 /* Open `path` and write the start record and one record per stage. NULL on failure (d). */
 FILE *session_log_open(const char *path, const pipeline *pl, diag *d);
 
+/* Record a swap: stage, new plugin (NULL: same), the parameter text, where it took over. */
+void session_log_swap(FILE *f, const char *stage, const char *plugin, const char *params,
+                      uint64_t index, double time, uint64_t warmup_frames);
+
 /* Write the end record and close. `error` is the run's message, or NULL if it went well. */
 void session_log_close(FILE *f, const loop_stats *st, const char *error);
 
