@@ -11,7 +11,7 @@
 
 static const char help[] =
     "usage: weft fit GRAPH -o FITTED [--folds K] [--duration SECONDS] [--block FRAMES]\n"
-    "                [--quiet]\n"
+    "                [--shuffle SEED] [--quiet]\n"
     "\n"
     "Fits every fittable stage of GRAPH (spatial filters, readouts) on the labelled data of\n"
     "the graph's own sources, which must end by themselves (a recording, or a synthetic\n"
@@ -24,12 +24,15 @@ static const char help[] =
     "                 Block f is tested after fitting on blocks before it only.\n"
     "  --duration S   use the first S seconds of data\n"
     "  --block N      frames per source request (results do not depend on it)\n"
+    "  --shuffle SEED permute the classes over the trials before fitting: a check that the\n"
+    "                 accuracy falls to chance; the fitted graph is marked and not for use\n"
     "  --quiet        no progress or summary on stderr\n"
     "Exit 0 done, 1 fitting failed, 2 usage error, 3 the graph is not valid.\n";
 
 typedef struct fit_args {
     const char *graph, *out;
-    unsigned long folds, block;
+    unsigned long folds, block, shuffle_seed;
+    int shuffle;
     double duration;
     int quiet;
 } fit_args;
@@ -70,6 +73,11 @@ static int parse_args(int argc, char **argv, fit_args *a)
                 fprintf(stderr, "weft fit: --block %lu is more than 1048576 frames\n", a->block);
                 return -1;
             }
+        } else if (!strcmp(arg, "--shuffle")) {
+            if (cli_count(arg, next, &a->shuffle_seed))
+                return -1;
+            i++;
+            a->shuffle = 1;
         } else if (!strcmp(arg, "--quiet")) {
             a->quiet = 1;
         } else if (arg[0] == '-') {
@@ -131,6 +139,10 @@ static char *make_header(const fit_args *a, const pipeline *pl, const fit_summar
         "(FNV-1a over every source's samples and marker labels; it tells data apart, it is\n"
         "not cryptographic).\n",
         a->graph, when, s->data_seconds, s->n_markers, (unsigned long long)s->data_hash);
+    if (a->shuffle && len < size)
+        len += (size_t)snprintf(h + len, size - len,
+                                "CLASSES SHUFFLED over the trials (--shuffle %lu): a chance-level "
+                                "check; do not use this graph.\n", a->shuffle_seed);
     for (unsigned i = 0; i < s->n_readouts && len < size; i++) {
         len += describe_readout(pl, &s->readouts[i], h + len, size - len);
         if (len < size)
@@ -174,7 +186,8 @@ int cli_fit(int argc, char **argv)
         return EXIT_INVALID;
     }
     fit_options fo = { .folds = (unsigned)a.folds, .duration = a.duration,
-                       .log = a.quiet ? NULL : stderr };
+                       .log = a.quiet ? NULL : stderr, .shuffle = a.shuffle,
+                       .shuffle_seed = a.shuffle_seed };
     fit_summary sum;
     rc = fit_pipeline(&pl, &fo, &sum, &d);
     char *header = rc ? NULL : make_header(&a, &pl, &sum);

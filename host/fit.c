@@ -127,6 +127,7 @@ static int survey(fit_run *fr, diag *d)
         if (seconds < fr->shortest_source)
             fr->shortest_source = seconds;
         h = fnv1a_update(h, &fr->pass.hash[i], sizeof fr->pass.hash[i]);
+        h = fnv1a_update(h, &fr->pass.marker_hash[i], sizeof fr->pass.marker_hash[i]);
     }
     fr->sum->data_hash = h;
     fr->sum->n_markers = fr->pass.n_markers;
@@ -196,10 +197,11 @@ static int build_lists(fit_run *fr, diag *d)
             say(fr, "stage '%s': %u labelled marker%s left out: %s windows would start before "
                 "the data or end after it", r->def->name, el->dropped,
                 el->dropped == 1 ? "" : "s", el->dropped == 1 ? "its" : "their");
-        if (check_trials(fr, r, el, d))
-            return -1;
     }
     warn_unmapped(fr);
+    for (unsigned i = 0; i < pl->n; i++)
+        if (fr->lists[i].per_class && check_trials(fr, &pl->nodes[i], &fr->lists[i], d))
+            return -1;
     return 0;
 }
 
@@ -435,11 +437,40 @@ static int fit_everything(fit_run *fr, diag *d)
     return 0;
 }
 
+/* splitmix64 (Steele, Lea and Flood 2014, "Fast splittable pseudorandom number generators"). */
+static uint64_t splitmix64(uint64_t *state)
+{
+    uint64_t z = (*state += 0x9e3779b97f4a7c15ull);
+    z = (z ^ (z >> 30)) * 0xbf58476d1ce4e5b9ull;
+    z = (z ^ (z >> 27)) * 0x94d049bb133111ebull;
+    return z ^ (z >> 31);
+}
+
+/* A permutation check: with the classes shuffled over the trials (Fisher-Yates), nothing
+ * real can be learned, so the cross-validated accuracy must fall to chance. */
+static void shuffle_classes(fit_run *fr)
+{
+    uint64_t state = fr->opt->shuffle_seed;
+    for (unsigned i = 0; i < fr->pl->n; i++) {
+        epoch_list *el = &fr->lists[i];
+        for (unsigned e = el->n; e > 1; e--) {
+            unsigned j = (unsigned)(splitmix64(&state) % e);
+            uint32_t c = el->items[e - 1].cls;
+            el->items[e - 1].cls = el->items[j].cls;
+            el->items[j].cls = c;
+        }
+    }
+    say(fr, "warning: the classes are shuffled over the trials (--shuffle); the fitted graph "
+        "only shows the chance level");
+}
+
 static int run_fit(fit_run *fr, diag *d)
 {
     if (assign_governors(fr, d) || check_bounded(fr, d) || survey(fr, d) || build_lists(fr, d) ||
         summarise_readouts(fr, d))
         return -1;
+    if (fr->opt->shuffle)
+        shuffle_classes(fr);
     for (unsigned i = 0; i < fr->sum->n_readouts; i++)
         if (cross_validate(fr, &fr->sum->readouts[i], d))
             return -1;

@@ -19,6 +19,8 @@ typedef struct fit_options {
                                  * 1: no estimate) */
     double duration;            /* seconds of data to use; 0: until every source ends */
     FILE *log;                  /* progress and warnings; NULL for none */
+    int shuffle;                /* permute the classes over the epochs (a chance-level check) */
+    uint64_t shuffle_seed;
 } fit_options;
 
 /* What one readout with `fit:` was fitted on and how well it generalised. */

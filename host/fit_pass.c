@@ -41,7 +41,8 @@ int fit_pass_init(fit_pass *fp, pipeline *pl, const uint8_t *ancestors, double d
     fp->rec = calloc(pl->n, sizeof *fp->rec);
     fp->recorded = calloc(pl->n, sizeof *fp->recorded);
     fp->hash = calloc(pl->n, sizeof *fp->hash);
-    return fp->rec && fp->recorded && fp->hash ? 0 : -1;
+    fp->marker_hash = calloc(pl->n, sizeof *fp->marker_hash);
+    return fp->rec && fp->recorded && fp->hash && fp->marker_hash ? 0 : -1;
 }
 
 void fit_pass_free(fit_pass *fp)
@@ -51,6 +52,7 @@ void fit_pass_free(fit_pass *fp)
     free(fp->rec);
     free(fp->recorded);
     free(fp->hash);
+    free(fp->marker_hash);
     free(fp->markers);
     memset(fp, 0, sizeof *fp);
 }
@@ -82,13 +84,14 @@ static void record_block(fit_pass *fp, const node *n, const weft_block *b)
 
 static void hash_block(fit_pass *fp, const node *n, const weft_block *b)
 {
-    uint64_t h = fp->hash[n->index];
-    h = fnv1a_update(h, b->data, (size_t)b->frames * b->channels * sizeof(float));
+    fp->hash[n->index] = fnv1a_update(fp->hash[n->index], b->data,
+                                      (size_t)b->frames * b->channels * sizeof(float));
+    uint64_t h = fp->marker_hash[n->index];
     for (uint32_t m = 0; m < b->n_markers; m++) {
         h = fnv1a_update(h, b->markers[m].label, strlen(b->markers[m].label) + 1);
         h = fnv1a_update(h, &b->markers[m].index, sizeof b->markers[m].index);
     }
-    fp->hash[n->index] = h;
+    fp->marker_hash[n->index] = h;
 }
 
 static void on_block(void *ctx, const node *n, const weft_block *b)
@@ -150,7 +153,7 @@ int fit_pass_run(fit_pass *fp, unsigned target, diag *d)
     if (fp->survey) {
         fp->n_markers = 0;
         for (unsigned i = 0; i < pl->n; i++)
-            fp->hash[i] = FNV1A_OFFSET;
+            fp->hash[i] = fp->marker_hash[i] = FNV1A_OFFSET;
     }
     choose_stages(fp, target);
     if (pipeline_rewind(pl, d))

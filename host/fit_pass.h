@@ -32,7 +32,8 @@ typedef struct fit_pass {
     int *recorded;              /* per node: 1 if rec[node] is being filled */
     marker_rec *markers;
     unsigned n_markers, markers_cap;
-    uint64_t *hash;             /* per node (sources) */
+    uint64_t *hash;             /* per node (sources): its samples ... */
+    uint64_t *marker_hash;      /* ... and its markers, apart, so block sizes do not matter */
     int failed_alloc;
 } fit_pass;
 

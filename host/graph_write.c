@@ -26,9 +26,13 @@ static void put_number(FILE *f, double v)
     fputs(tmp, f);
 }
 
+/* Plain scalars that YAML would read as something else. "-0.8" stays plain; "- x" and "?"
+ * would start a sequence item or a complex key. */
 static int needs_quotes(const char *s)
 {
-    if (!*s || s[0] == ' ' || s[strlen(s) - 1] == ' ' || strchr("-?", s[0]))
+    if (!*s || s[0] == ' ' || s[strlen(s) - 1] == ' ')
+        return 1;
+    if ((s[0] == '-' || s[0] == '?') && (s[1] == ' ' || s[1] == 0))
         return 1;
     return strpbrk(s, ":#{}[],&*!|>'\"%@`\n\t\\") != NULL;
 }

@@ -14,6 +14,10 @@
 #include "../common_spatial/spatial_matrix.h"
 
 #define LABEL_LEN 16
+/* Below this reciprocal condition of Ca + Cb some direction carries no variance beyond
+ * float32 rounding (a common average reference removes one, a bridged electrode another);
+ * its eigenvalue would be a ratio of rounding noise (common practice for float64 solves). */
+#define CSP_MIN_RCOND 1e-10
 
 static const weft_param_spec params[] = {
     { "pairs", WEFT_PARAM_INTEGER, 0, "3", 1, 64, "", NULL,
@@ -218,6 +222,21 @@ static int class_covariances(csp *s, const weft_epochs *ep, csp_work *w)
     return WEFT_OK;
 }
 
+/* Reciprocal 1-norm condition number of the symmetric positive matrix a (n x n), or 0 if it
+ * is not positive definite. */
+static double reciprocal_condition(const double *a, uint32_t n, double *scratch)
+{
+    memcpy(scratch, a, (size_t)n * n * sizeof *scratch);
+    double anorm = LAPACKE_dlansy(LAPACK_ROW_MAJOR, '1', 'L', (lapack_int)n, scratch,
+                                  (lapack_int)n);
+    double rcond = 0;
+    if (LAPACKE_dpotrf(LAPACK_ROW_MAJOR, 'L', (lapack_int)n, scratch, (lapack_int)n) != 0 ||
+        LAPACKE_dpocon(LAPACK_ROW_MAJOR, 'L', (lapack_int)n, scratch, (lapack_int)n, anorm,
+                       &rcond) != 0)
+        return 0;
+    return rcond;
+}
+
 /* The filter of eigenvector column `col` of the solved eigenproblem (stored in ca). */
 static void filter_row(const double *vectors, uint32_t n, uint32_t col, double *row)
 {
@@ -288,7 +307,8 @@ static int fit(void *self, const weft_epochs *ep, const weft_param_sink *learned
         memcpy(w.cov, w.ca, (size_t)n * n * sizeof(double));
         double *b = malloc((size_t)n * n * sizeof *b);
         lapack_int info = -1;
-        if (b) {
+        double rcond = b ? reciprocal_condition(w.sum, n, b) : 0;
+        if (b && rcond >= CSP_MIN_RCOND) {
             memcpy(b, w.sum, (size_t)n * n * sizeof *b);
             info = LAPACKE_dsygv(LAPACK_ROW_MAJOR, 1, 'V', 'L', (lapack_int)n, w.cov,
                                  (lapack_int)n, b, (lapack_int)n, w.lambda);
@@ -296,9 +316,10 @@ static int fit(void *self, const weft_epochs *ep, const weft_param_sink *learned
         }
         if (info != 0) {
             s->host->error(s->host, "the summed class covariance of the %u channels is singular "
-                           "(LAPACK dsygv info %d): channels are copies of each other or "
-                           "flat; set `shrinkage:` (e.g. 0.05) or drop the channels", n,
-                           (int)info);
+                           "(reciprocal condition %.2g): some combination of channels is "
+                           "flat, as after a common average reference or with a bridged "
+                           "electrode; set `shrinkage:` (e.g. 0.05) or drop a channel", n,
+                           rcond);
             rc = WEFT_EFIT;
         }
     }
