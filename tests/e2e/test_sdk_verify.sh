@@ -109,5 +109,12 @@ grep -q 'labels = NULL' "$out/bad_layout_crash.md" ||
 [ $? -eq 2 ] && grep -q "no parameter 'nonsense'" "$out/params.err" ||
     fail "--params with an unknown parameter is a usage error naming it"
 
+# --describe prints integer ranges as whole numbers.
+if "$WEFT" stages --describe synthetic | grep -q 'seed .*0\.\.2147483647$'; then
+    ok "describe prints integer ranges whole"
+else
+    fail "weft stages --describe synthetic should print the seed range as 0..2147483647"
+fi
+
 echo "$passed passed, $failures failed"
 [ "$failures" -eq 0 ]
