@@ -74,5 +74,7 @@ echo "ok: a moved install finds its plugins"
 
 "$weft" stages --verify "$so" >"$work/verify.md"
 grep -q '^PASS: ' "$work/verify.md" || { echo "FAILED: checker:"; cat "$work/verify.md"; exit 1; }
-echo "ok: the installed checker passes the example"
+ctest --test-dir "$work/build" --output-on-failure >"$work/ctest.log" ||
+    { echo "FAILED: the example's own conformance test"; cat "$work/ctest.log"; exit 1; }
+echo "ok: the installed checker passes the example, also as the example's own ctest"
 echo "6 passed, 0 failed"
