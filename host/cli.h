@@ -13,6 +13,9 @@ enum {
 int cli_check(int argc, char **argv);
 int cli_run(int argc, char **argv);
 int cli_stages(int argc, char **argv);
+/* status, stop, swap: argv[0] is the command. */
+int cli_control(int argc, char **argv);
+int cli_fit(int argc, char **argv);
 
 /* Parse a positive number / whole number option value; print a usage error if bad. */
 int cli_number(const char *opt, const char *text, double *out);
