@@ -16,6 +16,9 @@ static const char usage[] =
     "  run GRAPH          run a graph (see weft run --help)\n"
     "  replay GRAPH --data REC  run a graph on a recording and score it against its cues\n"
     "  stages [NAME]      list the plugins found and their parameters\n"
+    "  status SOCKET      ask a running graph (run --control SOCKET) how it is doing\n"
+    "  swap SOCKET STAGE  replace a stage of a running graph, losing no sample\n"
+    "  stop SOCKET        stop a running graph cleanly\n"
     "  version            print the weft and stage ABI versions\n"
     "\n"
     "Each command takes --help. Exit codes: 0 done, 1 the run failed, 2 usage error,\n"
@@ -41,10 +44,14 @@ int main(int argc, char **argv)
         return cli_check(argc - 1, argv + 1);
     if (!strcmp(cmd, "run"))
         return cli_run(argc - 1, argv + 1);
+    if (!strcmp(cmd, "fit"))
+        return cli_fit(argc - 1, argv + 1);
     if (!strcmp(cmd, "replay"))
         return cli_replay(argc - 1, argv + 1);
     if (!strcmp(cmd, "stages"))
         return cli_stages(argc - 1, argv + 1);
+    if (!strcmp(cmd, "status") || !strcmp(cmd, "stop") || !strcmp(cmd, "swap"))
+        return cli_control(argc - 1, argv + 1);
     fprintf(stderr, "weft: unknown command '%s'\n\n%s", cmd, usage);
     return EXIT_USAGE;
 }

@@ -15,7 +15,7 @@ static const weft_param_spec params[] = {
       "file to write; - is standard output" },
     { "buffer", WEFT_PARAM_INTEGER, 0, "1048576", 4096, 1073741824, "bytes", NULL,
       "queue between the run loop and the writer thread; lines are dropped if it fills" },
-    { NULL },
+    WEFT_PARAMS_END,
 };
 
 typedef struct jsonl {
@@ -88,7 +88,7 @@ static int deliver(void *self, uint32_t input, const weft_result *r)
     text_put(&t, "{\"stage\":");
     text_json_string(&t, l->name ? l->name : "");
     text_printf(&t, ",\"seq\":%llu,\"time\":", (unsigned long long)r->seq);
-    text_double(&t, r->time);
+    text_seconds(&t, r->time);
     text_printf(&t, ",\"index\":%llu,\"trigger\":", (unsigned long long)r->index);
     if (r->trigger)
         text_json_string(&t, r->trigger);

@@ -104,6 +104,9 @@ typedef struct weft_param_spec {
 
 #define WEFT_NO_RANGE 1.0, 0.0
 
+/* Ends a parameter array (a designated initializer, so -Wextra stays quiet). */
+#define WEFT_PARAMS_END { .name = NULL }
+
 /* The value of one parameter as given to init. Every declared parameter is present, in the
  * order of the declaration; `given` is 0 when the value is the default (or a learned parameter
  * not yet learned, in which case the value is empty). Pointers are owned by the host and stay
