@@ -99,7 +99,7 @@ static int handle(recorder *r, const item *it)
         edf_writer_marker_at(&r->w, it->input, it->index, it->duration, it->label);
         return 0;
     case ITEM_LOST:
-        return edf_writer_fill(&r->w, it->input, it->index, "lost");
+        return edf_writer_fill(&r->w, it->input, it->index);
     }
     return 0;
 }
@@ -294,7 +294,7 @@ static int open_file(recorder *r, const weft_params *p, int bdf)
     uint32_t s = 0;
     for (uint32_t k = 0; k < r->n_in; k++) {
         specs[k] = (edf_writer_input_spec){ r->channels[k], r->rate[k], r->range[k],
-                                            r->label_ptrs + s };
+                                            r->label_ptrs + s, r->stage[k] };
         s += r->channels[k];
     }
     double record = r->record_seconds;
@@ -459,12 +459,12 @@ static void report(recorder *r)
                    r->range[k], r->unit);
         if (in->late)
             h->log(h, WEFT_LOG_WARN, "%llu samples of '%s' came more than `buffer` seconds "
-                   "after the other inputs and were dropped (marked \"pad\")",
-                   (unsigned long long)in->late, r->stage[k]);
+                   "after the other inputs and were dropped (marked \"pad %s\")",
+                   (unsigned long long)in->late, r->stage[k], r->stage[k]);
     }
     if (r->lost_total)
         h->log(h, WEFT_LOG_WARN, "%llu frames could not be queued (the disk fell behind by more "
-               "than `buffer` seconds) and were marked \"lost\"",
+               "than `buffer` seconds) and were marked \"lost STAGE\"",
                (unsigned long long)r->lost_total);
     if (r->markers_dropped || markers_lost)
         h->log(h, WEFT_LOG_WARN, "%llu markers could not be written",
