@@ -102,7 +102,7 @@ static void confusion(FILE *f, const replay_readout *ro, const metrics *m, const
     unsigned n = ro->n_classes;
     double cell = 56, left = 90, top = 40;
     fprintf(f, "<svg xmlns='http://www.w3.org/2000/svg' width='%.0f' height='%.0f' "
-            "font-size='12'><text x='0' y='14' font-weight='bold'>", left + cell * n + 10,
+            "font-size='12'><text x='0' y='14' font-weight='bold'>", left + cell * n + 110,
             top + cell * n + 24);
     html_text(f, title);
     fputs("</text>\n", f);
@@ -150,7 +150,7 @@ static void histograms(FILE *f, const replay *r, const replay_readout *ro)
     double w = 420, h = 160, left = 30, top = 20, bar = (w - left - 10) / HIST_BINS;
     fprintf(f, "<svg xmlns='http://www.w3.org/2000/svg' width='%.0f' height='%.0f' "
             "font-size='11'><text x='0' y='12' font-weight='bold'>%s by true class</text>\n",
-            w, h + 40, n == 2 ? "score (value of the second class)" : "value of the true class");
+            w, h + 56, n == 2 ? "score (value of the second class)" : "value of the true class");
     for (unsigned t = 0; t < n && t < METRICS_MAX_CLASSES; t++) {
         for (unsigned b = 0; b < HIST_BINS; b++) {
             double bh = (double)counts[t][b] / peak * h;
