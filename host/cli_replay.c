@@ -11,7 +11,7 @@
 
 static const char help[] =
     "usage: weft replay GRAPH --data RECORDING [--report FILE.html] [--json FILE]\n"
-    "                   [--from S] [--to S] [--realtime] [--block N] [--quiet]\n"
+    "                   [--from S] [--to S] [--folds K] [--realtime] [--block N] [--quiet]\n"
     "\n"
     "Runs GRAPH on RECORDING (EDF+ or BDF+) exactly as it runs live: every source stage plays\n"
     "the recording's stream of the same name (stage 'eeg' plays signals 'eeg.*'), the first\n"
@@ -23,6 +23,9 @@ static const char help[] =
     "  --from S       score periodic results from S seconds after each cue (default: the\n"
     "                 readout's longest window)\n"
     "  --to S         ... up to S seconds after it (default: the cue's duration)\n"
+    "  --folds K      chronological cross-validation: cut the recording into K blocks of\n"
+    "                 equal length; fit the graph (as weft fit does) on the data before each\n"
+    "                 block and replay it through the block; score blocks 2 .. K together\n"
     "  --realtime     pace the recording to the wall clock, as live\n"
     "  --block N      frames per source request (any value gives the same results)\n"
     "  --quiet        no summary and no progress bar\n"
@@ -32,7 +35,7 @@ static const char help[] =
 typedef struct replay_args {
     const char *graph, *report, *json;
     replay_options opt;
-    unsigned long block;
+    unsigned long block, folds;
     int quiet;
 } replay_args;
 
@@ -69,6 +72,10 @@ static int parse_args(int argc, char **argv, replay_args *a)
             i++;
         } else if (!strcmp(arg, "--to")) {
             if (parse_seconds(arg, next, &a->opt.score_to))
+                return -1;
+            i++;
+        } else if (!strcmp(arg, "--folds")) {
+            if (cli_count(arg, next, &a->folds))
                 return -1;
             i++;
         } else if (!strcmp(arg, "--realtime")) {
@@ -113,8 +120,23 @@ static void print_metrics(FILE *f, const char *what, const metrics *m)
     fputc('\n', f);
 }
 
+static void print_folds(FILE *f, const replay *r)
+{
+    for (unsigned k = 1; k < r->folds; k++) {
+        const replay_fold *fo = &r->fold[k];
+        fprintf(f, "fold %u: fitted on 0-%.1f s, tested on %.1f-", k + 1, fo->from, fo->from);
+        if (isfinite(fo->to))
+            fprintf(f, "%.1f s", fo->to);
+        else
+            fprintf(f, "end");
+        fprintf(f, "%s%s\n", fo->tested ? "" : ": skipped, ", fo->tested ? "" : fo->skipped);
+    }
+}
+
 static void print_summary(FILE *f, const replay *r)
 {
+    if (r->folds)
+        print_folds(f, r);
     for (unsigned i = 0; i < r->n_readouts; i++) {
         const replay_readout *ro = &r->readouts[i];
         fprintf(f, "readout '%s': %zu results, %zu trials scored\n", ro->name, ro->n_results,
@@ -170,7 +192,8 @@ int cli_replay(int argc, char **argv)
         return rc > 0 ? EXIT_OK : EXIT_USAGE;
     diag d = { 0 };
     replay r;
-    rc = replay_run(&r, a.graph, &a.opt, &d);
+    rc = a.folds ? replay_folds(&r, a.graph, &a.opt, (unsigned)a.folds, &d)
+                 : replay_run(&r, a.graph, &a.opt, &d);
     if (rc) {
         fprintf(stderr, "weft: %s\n", d.msg);
         int invalid = !r.have_stats;

@@ -9,6 +9,7 @@
 #include <unistd.h>
 
 #include "edf_header.h"
+#include "fit.h"
 #include "graph_recording.h"
 
 #define PROGRESS_INTERVAL 0.1       /* seconds of wall time between progress bar updates */
@@ -56,6 +57,8 @@ static void on_marker(void *ctx, const node *source, const weft_marker *m, doubl
 {
     (void)source;
     replay *r = ctx;
+    if (time < r->keep_from - 1e-9 || time >= r->keep_to - 1e-9)
+        return;
     if (r->n_cues == r->cap_cues) {
         size_t cap = r->cap_cues ? 2 * r->cap_cues : 256;
         replay_cue *c = realloc(r->cues, cap * sizeof *c);
@@ -92,6 +95,8 @@ static void on_result(void *ctx, const node *readout, const weft_result *res)
 {
     replay *r = ctx;
     replay_readout *ro = NULL;
+    if (res->time < r->keep_from - 1e-9 || res->time >= r->keep_to - 1e-9)
+        return;
     for (unsigned i = 0; i < r->n_readouts && !ro; i++)
         if (r->readouts[i].node == readout->index)
             ro = &r->readouts[i];
@@ -170,10 +175,10 @@ static double trial_end(const replay *r, const replay_readout *ro, const long *c
 }
 
 static void attribute_results(const replay *r, replay_readout *ro, const long *class_cues,
-                              size_t n_class_cues)
+                              size_t n_class_cues, size_t first_result)
 {
     size_t next = 0; /* class cues are in time order, and so are results */
-    for (size_t i = 0; i < ro->n_results; i++) {
+    for (size_t i = first_result; i < ro->n_results; i++) {
         replay_result *res = &ro->results[i];
         while (next < n_class_cues && r->cues[class_cues[next]].time <= res->time + 1e-9)
             next++;
@@ -271,16 +276,38 @@ done:
     return rc;
 }
 
-static int score_readout(replay *r, replay_readout *ro)
+/* The cues from `first_cue` on that name one of the readout's classes, in time order. */
+static long *class_cues_of(const replay *r, const replay_readout *ro, size_t first_cue,
+                           size_t *n)
 {
     long *class_cues = malloc((r->n_cues + 1) * sizeof *class_cues);
+    *n = 0;
+    for (size_t i = first_cue; class_cues && i < r->n_cues; i++)
+        if (replay_cue_class(r, ro, r->cues[i].label) >= 0)
+            class_cues[(*n)++] = (long)i;
+    return class_cues;
+}
+
+/* Results from `first_result` on are matched with cues from `first_cue` on: a fold's results
+ * only ever belong to the fold's own cues. */
+static int attribute_readout(replay *r, replay_readout *ro, size_t first_cue,
+                             size_t first_result)
+{
+    size_t n;
+    long *class_cues = class_cues_of(r, ro, first_cue, &n);
     if (!class_cues)
         return -1;
-    size_t n = 0;
-    for (size_t i = 0; i < r->n_cues; i++)
-        if (replay_cue_class(r, ro, r->cues[i].label) >= 0)
-            class_cues[n++] = (long)i;
-    attribute_results(r, ro, class_cues, n);
+    attribute_results(r, ro, class_cues, n, first_result);
+    free(class_cues);
+    return 0;
+}
+
+static int score_readout(replay *r, replay_readout *ro)
+{
+    size_t n;
+    long *class_cues = class_cues_of(r, ro, 0, &n);
+    if (!class_cues)
+        return -1;
     int rc = score_results(r, ro) || score_trials(r, ro, class_cues, n) ? -1 : 0;
     free(class_cues);
     return rc;
@@ -322,37 +349,185 @@ static int setup_readouts(replay *r, diag *d)
     return 0;
 }
 
-int replay_run(replay *r, const char *graph_path, const replay_options *opt, diag *d)
+static void add_stats(replay *r, loop_stats *st)
+{
+    if (!r->have_stats) {
+        r->stats = *st;
+        r->have_stats = 1;
+        return;
+    }
+    for (unsigned b = 0; b <= LATENCY_BUCKETS; b++)
+        r->stats.round_us.counts[b] += st->round_us.counts[b];
+    r->stats.round_us.n += st->round_us.n;
+    if (st->round_us.max_us > r->stats.round_us.max_us)
+        r->stats.round_us.max_us = st->round_us.max_us;
+    r->stats.rounds += st->rounds;
+    r->stats.results += st->results;
+    r->stats.wall_seconds += st->wall_seconds;
+    if (st->stream_seconds > r->stats.stream_seconds)
+        r->stats.stream_seconds = st->stream_seconds;
+    loop_stats_free(st);
+}
+
+/* Run r->pl (open) through the loop for `duration` seconds (0: to the end) and close it. */
+static int run_open_pipeline(replay *r, double duration, diag *d)
+{
+    loop_options lo = { .realtime = r->opt.realtime, .duration = duration };
+    loop_hooks hooks = { .ctx = r, .on_marker = on_marker, .on_result = on_result,
+                         .on_block = on_block };
+    loop_stats st;
+    int rc = loop_run(&r->pl, &lo, &hooks, &st, d);
+    add_stats(r, &st);
+    if (r->opt.progress && r->recording_seconds > 0)
+        fprintf(stderr, "\r%*s\r", PROGRESS_WIDTH + 40, "");
+    /* Sinks flush and close now, as at the end of a live run. */
+    pipeline_close(&r->pl);
+    r->opened = 0;
+    if (rc == 0 && r->out_of_memory)
+        rc = diag_set(d, "out of memory keeping the replay's results");
+    return rc;
+}
+
+static int load(replay *r, const char *graph_path, const replay_options *opt, diag *d)
 {
     memset(r, 0, sizeof *r);
     r->opt = *opt;
+    r->keep_from = -INFINITY;
+    r->keep_to = INFINITY;
     if (graph_load(&r->g, graph_path, NULL, d) || graph_use_recording(&r->g, opt->data, d))
+        return -1;
+    r->recording_seconds = recording_seconds(opt->data);
+    return 0;
+}
+
+static int score_all(replay *r, diag *d)
+{
+    for (unsigned i = 0; i < r->n_readouts; i++)
+        if (score_readout(r, &r->readouts[i]))
+            return diag_set(d, "out of memory scoring readout '%s'", r->readouts[i].name);
+    return 0;
+}
+
+int replay_run(replay *r, const char *graph_path, const replay_options *opt, diag *d)
+{
+    if (load(r, graph_path, opt, d))
         return -1;
     pipeline_options po = { .block = opt->block };
     if (pipeline_open(&r->pl, &r->g, &po, d))
         return -1;
     r->opened = 1;
-    r->recording_seconds = recording_seconds(opt->data);
-    if (setup_readouts(r, d))
+    if (setup_readouts(r, d) || run_open_pipeline(r, 0, d))
         return -1;
-    loop_options lo = { .realtime = opt->realtime };
-    loop_hooks hooks = { .ctx = r, .on_marker = on_marker, .on_result = on_result,
-                         .on_block = on_block };
-    int rc = loop_run(&r->pl, &lo, &hooks, &r->stats, d);
-    r->have_stats = 1;
-    if (opt->progress && r->recording_seconds > 0)
-        fprintf(stderr, "\r%*s\r", PROGRESS_WIDTH + 40, "");
-    /* Sinks flush and close now, as at the end of a live run. */
-    pipeline_close(&r->pl);
-    r->opened = 0;
-    if (rc)
-        return -1;
-    if (r->out_of_memory)
-        return diag_set(d, "out of memory keeping the replay's results");
     for (unsigned i = 0; i < r->n_readouts; i++)
-        if (score_readout(r, &r->readouts[i]))
-            return diag_set(d, "out of memory scoring readout '%s'", r->readouts[i].name);
+        if (attribute_readout(r, &r->readouts[i], 0, 0))
+            return diag_set(d, "out of memory");
+    return score_all(r, d);
+}
+
+/* ---- chronological cross-validation ------------------------------------------------------ */
+
+/* The learned parameters of every fitted stage of `from` into the same stage of `to`, which
+ * is then initialised with them. Both pipelines run the same graph. */
+static int carry_learned(pipeline *from, pipeline *to, diag *d)
+{
+    for (unsigned k = 0; k < to->n; k++) {
+        unsigned i = to->order[k];
+        node *src = &from->nodes[i], *dst = &to->nodes[i];
+        if (!(dst->api->roles & WEFT_ROLE_FITTABLE))
+            continue;
+        for (uint32_t p = 0; p < src->params.count; p++) {
+            const weft_param *v = &src->params.items[p];
+            if (!(src->api->params[p].flags & WEFT_PARAM_LEARNED) || !v->given)
+                continue;
+            int rc;
+            if (v->type == WEFT_PARAM_NUMBERS || v->type == WEFT_PARAM_MATRIX)
+                rc = param_set_numbers(&dst->params, v->name, v->values, v->rows, v->cols,
+                                       v->type == WEFT_PARAM_MATRIX);
+            else if (v->type == WEFT_PARAM_STRINGS)
+                rc = param_set_strings(&dst->params, v->name, v->strings, v->n_strings);
+            else
+                rc = param_set_number(&dst->params, v->name, v->number);
+            if (rc)
+                return diag_set(d, "stage '%s': cannot carry learned '%s' over",
+                                dst->def->name, v->name);
+        }
+        if (pipeline_reinit(to, i, d))
+            return -1;
+    }
     return 0;
+}
+
+static int fold_fit(replay *r, double until, pipeline *fitted, diag *d)
+{
+    pipeline_options po = { .block = r->opt.block, .for_fit = 1 };
+    if (pipeline_open(fitted, &r->g, &po, d))
+        return -1;
+    fit_options fo = { .folds = 1, .duration = until };
+    fit_summary sum;
+    int rc = fit_pipeline(fitted, &fo, &sum, d);
+    if (rc == 0)
+        fit_summary_free(&sum);
+    if (rc)
+        pipeline_close(fitted);
+    return rc;
+}
+
+static int run_fold(replay *r, unsigned k, diag *d)
+{
+    double block = r->recording_seconds / r->folds;
+    double from = k * block, to = k + 1 == r->folds ? INFINITY : (k + 1) * block;
+    pipeline fitted;
+    diag why = { 0 };
+    replay_fold *f = &r->fold[k];
+    f->from = from;
+    f->to = to;
+    if (fold_fit(r, from, &fitted, &why)) {
+        snprintf(f->skipped, sizeof f->skipped, "%s", why.msg);
+        return 0; /* too few trials so early, say: the fold is reported as skipped */
+    }
+    pipeline_options po = { .block = r->opt.block, .for_fit = 1 };
+    int rc = pipeline_open(&r->pl, &r->g, &po, d);
+    r->opened = rc == 0;
+    if (rc == 0)
+        rc = carry_learned(&fitted, &r->pl, d);
+    pipeline_close(&fitted);
+    if (rc == 0 && !r->readouts)
+        rc = setup_readouts(r, d);
+    size_t first_cue = r->n_cues;
+    size_t *first_result = calloc(r->n_readouts + 1, sizeof *first_result);
+    if (rc == 0 && !first_result)
+        rc = diag_set(d, "out of memory");
+    for (unsigned i = 0; rc == 0 && i < r->n_readouts; i++)
+        first_result[i] = r->readouts[i].n_results;
+    r->keep_from = from;
+    r->keep_to = to;
+    if (rc == 0)
+        rc = run_open_pipeline(r, isfinite(to) ? to : 0, d);
+    for (unsigned i = 0; rc == 0 && i < r->n_readouts; i++)
+        if (attribute_readout(r, &r->readouts[i], first_cue, first_result[i]))
+            rc = diag_set(d, "out of memory");
+    free(first_result);
+    f->tested = 1;
+    return rc;
+}
+
+int replay_folds(replay *r, const char *graph_path, const replay_options *opt, unsigned folds,
+                 diag *d)
+{
+    if (load(r, graph_path, opt, d))
+        return -1;
+    if (folds < 2 || folds > REPLAY_FOLDS_MAX)
+        return diag_set(d, "--folds must be 2 to %d, not %u", REPLAY_FOLDS_MAX, folds);
+    if (!(r->recording_seconds > 0))
+        return diag_set(d, "recording '%s' holds no data records", opt->data);
+    r->folds = folds;
+    /* Block 0 has no earlier data to fit on: blocks 1 .. K-1 are tested. */
+    for (unsigned k = 1; k < folds; k++)
+        if (run_fold(r, k, d))
+            return -1;
+    if (!r->readouts)
+        return diag_set(d, "no fold could be fitted: %s", r->fold[1].skipped);
+    return score_all(r, d);
 }
 
 void replay_free(replay *r)

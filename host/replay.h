@@ -21,6 +21,7 @@
 #include "metrics.h"
 
 #define REPLAY_LABEL_MAX 64
+#define REPLAY_FOLDS_MAX 64
 
 typedef struct replay_options {
     const char *data;               /* the recording */
@@ -65,6 +66,13 @@ typedef struct replay_readout {
     metrics per_result, per_trial;
 } replay_readout;
 
+/* One block of a chronological cross-validation: fitted on [0, from), tested on [from, to). */
+typedef struct replay_fold {
+    double from, to;
+    int tested;
+    char skipped[DIAG_MAX];         /* why it could not be fitted, if it was not */
+} replay_fold;
+
 typedef struct replay {
     graph g;
     pipeline pl;
@@ -79,12 +87,24 @@ typedef struct replay {
     int have_stats;
     double progress_shown;          /* wall time of the last progress bar */
     int out_of_memory;
+    double keep_from, keep_to;      /* only cues and results in this span are kept */
+    unsigned folds;                 /* 0: a plain replay */
+    replay_fold fold[REPLAY_FOLDS_MAX];
 } replay;
 
 /* Load the graph, substitute its sources by the recording, run it to the end and score every
  * readout. Returns 0, or -1 with d saying what failed (the graph, the recording, a stage). */
 int replay_run(replay *r, const char *graph_path, const replay_options *opt, diag *d);
 void replay_free(replay *r);
+
+/* Chronological block cross-validation of fit plus replay: the recording is cut into `folds`
+ * blocks of equal duration; for each block k >= 1 the graph is fitted (weft fit's passes) on
+ * the data before the block and replayed through it, and only the block's own cues and
+ * results are kept. The metrics are those of all tested blocks together; block 0, with nothing
+ * before it, is never tested, and a block whose earlier data cannot be fitted is skipped and
+ * says why. Returns 0 or -1 with d. */
+int replay_folds(replay *r, const char *graph_path, const replay_options *opt, unsigned folds,
+                 diag *d);
 
 /* The class a cue label stands for in a readout, or -1. */
 int replay_cue_class(const replay *r, const replay_readout *ro, const char *label);

@@ -234,6 +234,19 @@ int report_html(FILE *f, const replay *r, const char *graph_path)
     html_text(f, r->opt.data);
     fprintf(f, "</code>: %.1f s of data, %zu markers, %llu results.</p>\n", 
             r->stats.stream_seconds, r->n_cues, (unsigned long long)r->stats.results);
+    if (r->folds) {
+        fprintf(f, "<p>Chronological cross-validation in %u blocks: each block from the second "
+                "on was replayed through the graph fitted on the data before it.</p><ul>\n",
+                r->folds);
+        for (unsigned k = 1; k < r->folds; k++) {
+            fprintf(f, "<li>block %u: fitted on 0&ndash;%.1f s, tested from %.1f s%s", k + 1,
+                    r->fold[k].from, r->fold[k].from, r->fold[k].tested ? "" : ": skipped, ");
+            if (!r->fold[k].tested)
+                html_text(f, r->fold[k].skipped);
+            fputs("</li>\n", f);
+        }
+        fputs("</ul>\n", f);
+    }
     for (unsigned i = 0; i < r->n_readouts; i++)
         readout_section(f, r, &r->readouts[i]);
     fprintf(f, "<h2>Processing time per round</h2>\n<p>%llu rounds: median %.0f &micro;s, "

@@ -131,7 +131,23 @@ int report_json(FILE *f, const replay *r, const char *graph_path)
     json_number(f, latency_quantile(l, 0.99));
     fputs(", \"max\": ", f);
     json_number(f, l->max_us);
-    fputs("},\n \"readouts\": [", f);
+    fputs("},\n \"folds\": [", f);
+    for (unsigned k = 1; k < r->folds; k++) {
+        const replay_fold *fo = &r->fold[k];
+        fprintf(f, "%s{\"fitted_on\": [0, ", k > 1 ? ", " : "");
+        json_number(f, fo->from);
+        fputs("], \"tested_on\": [", f);
+        json_number(f, fo->from);
+        fputs(", ", f);
+        json_number(f, isfinite(fo->to) ? fo->to : r->stats.stream_seconds);
+        fprintf(f, "], \"tested\": %s, \"skipped\": ", fo->tested ? "true" : "false");
+        if (fo->tested)
+            fputs("null", f);
+        else
+            json_string(f, fo->skipped);
+        fputc('}', f);
+    }
+    fputs("],\n \"readouts\": [", f);
     for (unsigned i = 0; i < r->n_readouts; i++) {
         fputs(i ? ",\n  " : "\n  ", f);
         json_readout(f, r, &r->readouts[i]);

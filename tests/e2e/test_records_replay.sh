@@ -36,8 +36,8 @@ check "the calibration session fits" test $? -eq 0 || cat "$tmp/err"
 cp "$tmp/fitted.yaml" "$tmp/live.yaml"
 echo "  rec: { plugin: recorder, input: [eeg, emg], params: { path: \"$tmp/session.bdf\" } }" \
     >> "$tmp/live.yaml"
-"$WEFT" run "$tmp/live.yaml" --set eeg.seed=22 --set emg.seed=22 --set eeg.trials=12 \
-    --set emg.trials=12 --quiet 2>"$tmp/err"
+"$WEFT" run "$tmp/live.yaml" --set eeg.seed=22 --set emg.seed=22 --set eeg.trials=24 \
+    --set emg.trials=24 --quiet 2>"$tmp/err"
 check "the live session runs and records" test $? -eq 0 -a -s "$tmp/session.bdf" ||
     cat "$tmp/err"
 
@@ -71,6 +71,22 @@ sed 's/^  emg:/  eye:/; s/from: emg/from: eye/' "$tmp/replay.yaml" > "$tmp/eye.y
 check "a source without a stream in the file is named with the file's streams" \
     grep -q "stage 'eye'.*no signals labelled 'eye\.\*'; its streams are: eeg 250 Hz, emg 1000 Hz" \
     "$tmp/err"
+
+# Chronological cross-validation on the session: 4 blocks of 6 trials; block 2 (fitted on 6
+# trials, 3 per class) cannot be fitted and says so, blocks 3 and 4 are tested.
+"$WEFT" replay "$tmp/replay.yaml" --data "$tmp/session.bdf" --folds 4 --json "$tmp/f.json" \
+    > "$tmp/folds" 2>"$tmp/err"
+check "replay --folds 4 exits 0" test $? -eq 0 || cat "$tmp/err"
+check "fold 2 is skipped with the reason" grep -q "fold 2: .*skipped.*fitting needs at least" \
+    "$tmp/folds"
+check "folds 3 and 4 are fitted on earlier data only" \
+    grep -q "fold 4: fitted on 0-1[0-9.]* s, tested on" "$tmp/folds"
+read cv_n cv_acc < <("$PYTHON" -c "
+import json; ro = json.load(open('$tmp/f.json'))['readouts'][0]['per_trial']
+print(ro['n'], ro['accuracy'])")
+check "cross-validated trials $cv_n (about 12) with accuracy $cv_acc > 0.8" \
+    bash -c "[ ${cv_n:-0} -ge 10 ] && [ ${cv_n:-0} -le 14 ]"
+check "cross-validated accuracy above 0.8" below 0.8 "${cv_acc:-0}"
 
 [ $fails -eq 0 ] && echo "all passed" || echo "$fails failed"
 exit $((fails > 0))
