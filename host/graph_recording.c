@@ -25,14 +25,15 @@ static ynode *scalar(const char *text, src_mark at)
     return n;
 }
 
-static void free_tree(ynode *n)
+static void free_node(ynode *n);
+
+/* Free what a node holds but keep the node itself (it is referenced from its parent). */
+static void clear_node(ynode *n)
 {
-    if (!n)
-        return;
     for (unsigned i = 0; i < n->n; i++) {
-        free_tree(n->items[i]);
+        free_node(n->items[i]);
         if (n->keys)
-            free_tree(n->keys[i]);
+            free_node(n->keys[i]);
     }
     free(n->items);
     free(n->keys);
@@ -42,11 +43,19 @@ static void free_tree(ynode *n)
     n->n = 0;
 }
 
+static void free_node(ynode *n)
+{
+    if (!n)
+        return;
+    clear_node(n);
+    free(n);
+}
+
 /* Make `map` (an existing node, emptied) the map { path, stream, markers }. */
 static int fill_params(ynode *map, const char *file, const char *stream, int markers,
                        src_mark at)
 {
-    free_tree(map);
+    clear_node(map);
     map->kind = YNODE_MAP;
     map->mark = at;
     map->items = calloc(3, sizeof *map->items);
@@ -104,9 +113,7 @@ static ynode *rewrite_stage_node(ynode *stage, src_mark at)
         return params;
     ynode *key = scalar("params", at), *value = calloc(1, sizeof *value);
     if (!key || !value || append_entry(stage, key, value)) {
-        if (key)
-            free_tree(key);
-        free(key);
+        free_node(key);
         free(value);
         return NULL;
     }

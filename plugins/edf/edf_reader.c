@@ -397,7 +397,8 @@ static int load_markers(reader *r, const char *stream)
     if (late)
         r->host->log(r->host, WEFT_LOG_WARN, "'%s': %zu annotations lie after the last sample "
                      "played and are not delivered", r->path, late);
-    qsort(r->markers, r->n_markers, sizeof *r->markers, cmp_marker);
+    if (r->n_markers > 1)
+        qsort(r->markers, r->n_markers, sizeof *r->markers, cmp_marker);
     return WEFT_OK;
 }
 

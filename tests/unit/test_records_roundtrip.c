@@ -99,8 +99,10 @@ static int play(const char *params, played *p, diag *d)
 {
     stage_driver sd;
     memset(p, 0, sizeof *p);
-    if (stage_driver_open(&sd, READER, params, NULL, 0, d))
+    if (stage_driver_open(&sd, READER, params, NULL, 0, d)) {
+        stage_driver_close(&sd);
         return -1;
+    }
     const weft_layout *out = stage_driver_out(&sd);
     p->channels = out->channels;
     p->rate = out->rate;
