@@ -169,9 +169,11 @@ static void free_buffers(edf_writer *w)
     }
     free(w->record);
     free(w->pending);
+    free(w->header);
     edf_header_free(&w->h);
     w->record = NULL;
     w->pending = NULL;
+    w->header = NULL;
 }
 
 void edf_writer_free(edf_writer *w)
@@ -181,52 +183,88 @@ void edf_writer_free(edf_writer *w)
     w->in = NULL;
 }
 
+static void dir_of(const char *path, char *dir, size_t size)
+{
+    const char *slash = strrchr(path, '/');
+    if (!slash)
+        snprintf(dir, size, ".");
+    else if (slash == path)
+        snprintf(dir, size, "/");
+    else
+        snprintf(dir, size, "%.*s", (int)(slash - path), path);
+}
+
+/* What creating the file would run into, found without creating it. */
+static int check_path(const char *path, int overwrite, char *err, size_t size)
+{
+    char dir[4096];
+    dir_of(path, dir, sizeof dir);
+    if (access(path, F_OK) == 0) {
+        if (!overwrite) {
+            snprintf(err, size, "'%s' exists already; a recorder never overwrites a recording "
+                     "unless told to: choose another path or set overwrite: true", path);
+            return -1;
+        }
+        if (access(path, W_OK)) {
+            snprintf(err, size, "cannot overwrite '%s': %s", path, strerror(errno));
+            return -1;
+        }
+    } else if (access(dir, W_OK)) {
+        snprintf(err, size, "cannot create '%s' in '%s': %s", path, dir, strerror(errno));
+        return -1;
+    }
+    return 0;
+}
+
 int edf_writer_open(edf_writer *w, const char *path, const edf_writer_spec *spec, char *err,
                     size_t err_size)
 {
     memset(w, 0, sizeof *w);
     w->fd = -1;
     w->sync = spec->sync;
+    w->overwrite = spec->overwrite;
     w->n_inputs = spec->n_inputs;
     uint32_t room = spec->markers_per_record ? spec->markers_per_record : 1;
     w->annotation_bytes = TIMEKEEPING_BYTES + room * TAL_BYTES_PER_MARKER;
     w->in = calloc(spec->n_inputs ? spec->n_inputs : 1, sizeof *w->in);
     if (!w->in)
         return fail(err, err_size, "out of memory");
-    uint8_t *header = NULL;
+    if (strlen(path) >= sizeof w->path) {
+        fail(err, err_size, "the path is too long");
+        goto failed;
+    }
+    strcpy(w->path, path);
     if (build_header(w, spec, err, err_size) || alloc_inputs(w, spec, err, err_size))
         goto failed;
-    header = malloc(w->h.header_bytes);
-    if (!header) {
+    w->header = malloc(w->h.header_bytes);
+    if (!w->header) {
         fail(err, err_size, "out of memory");
         goto failed;
     }
-    if (edf_header_format(&w->h, header, w->h.header_bytes, err, err_size))
+    if (edf_header_format(&w->h, w->header, w->h.header_bytes, err, err_size) ||
+        check_path(path, spec->overwrite, err, err_size))
         goto failed;
-    int flags = O_WRONLY | O_CREAT | O_CLOEXEC | (spec->overwrite ? O_TRUNC : O_EXCL);
-    w->fd = open(path, flags, 0644);
-    if (w->fd < 0) {
-        if (errno == EEXIST)
-            snprintf(err, err_size, "'%s' exists already; a recorder never overwrites a "
-                     "recording unless told to: choose another path or set overwrite: true",
-                     path);
-        else
-            snprintf(err, err_size, "cannot create '%s': %s", path, strerror(errno));
-        goto failed;
-    }
-    if (write_all(w, header, w->h.header_bytes, "cannot write the header")) {
-        snprintf(err, err_size, "'%s': %s", path, w->error);
-        goto failed;
-    }
-    free(header);
     return 0;
 failed:
-    free(header);
-    if (w->fd >= 0)
-        close(w->fd);
-    w->fd = -1;
     edf_writer_free(w);
     return -1;
+}
+
+int edf_writer_create(edf_writer *w)
+{
+    if (w->fd >= 0)
+        return 0;
+    int flags = O_WRONLY | O_CREAT | O_CLOEXEC | (w->overwrite ? O_TRUNC : O_EXCL);
+    w->fd = open(w->path, flags, 0644);
+    if (w->fd < 0) {
+        if (errno == EEXIST)
+            snprintf(w->error, sizeof w->error, "'%.180s' appeared after the run started and "
+                     "is not overwritten", w->path);
+        else
+            set_error(w, "cannot create the recording");
+        return -1;
+    }
+    return write_all(w, w->header, w->h.header_bytes, "cannot write the header");
 }
 
 /* physical -> digital, the inverse of physical = gain * digital + offset, clipped. */
@@ -400,6 +438,8 @@ static uint64_t late_frames(edf_writer_input *in, uint64_t n)
 
 int edf_writer_samples(edf_writer *w, uint32_t input, const float *frames, uint64_t n)
 {
+    if (edf_writer_create(w))
+        return -1;
     edf_writer_input *in = &w->in[input];
     uint64_t skip = late_frames(in, n);
     return stage_frames(w, input, frames + skip * in->channels, n - skip, 0);
@@ -407,6 +447,8 @@ int edf_writer_samples(edf_writer *w, uint32_t input, const float *frames, uint6
 
 int edf_writer_fill(edf_writer *w, uint32_t input, uint64_t n)
 {
+    if (edf_writer_create(w))
+        return -1;
     edf_writer_input *in = &w->in[input];
     uint64_t skip = late_frames(in, n);
     if (n == skip)
@@ -440,6 +482,10 @@ void edf_writer_marker_at(edf_writer *w, uint32_t input, uint64_t index, double 
 int edf_writer_close(edf_writer *w)
 {
     int rc = w->error[0] ? -1 : 0;
+    if (w->fd < 0 && rc == 0) { /* nothing ever came (weft check, a run that failed at once) */
+        free_buffers(w);
+        return 0;
+    }
     uint64_t records = w->records;
     for (uint32_t k = 0; k < w->n_inputs; k++) {
         uint64_t need = (w->in[k].have + w->in[k].spr - 1) / w->in[k].spr;

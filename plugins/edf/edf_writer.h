@@ -64,14 +64,23 @@ typedef struct edf_writer {
     edf_writer_marker recent[16];   /* for dropping the same marker seen on two inputs */
     uint32_t n_recent, recent_next;
     uint64_t markers_written, markers_lost;
-    int sync;
+    int sync, overwrite;
+    char path[4096];
+    uint8_t *header;                /* formatted in open, written by create */
     char error[256];                /* the first I/O error */
 } edf_writer;
 
-/* Create the file and write its header with zero records. Returns 0, or -1 with the reason
- * (an existing file, an impossible rate, a range that does not fit the header) in err. */
+/* Prepare everything and check that the file can be created (it must not exist unless
+ * overwrite is set; its folder must be writable), without touching the disk: `weft check`
+ * opens every stage, and must neither leave an empty recording behind nor clear an old one.
+ * Returns 0, or -1 with the reason (an existing file, a range that does not fit the header)
+ * in err. */
 int edf_writer_open(edf_writer *w, const char *path, const edf_writer_spec *spec, char *err,
                     size_t err_size);
+
+/* Create the file and write its header with zero records; done by the first samples. Returns
+ * 0 or -1 (w->error). */
+int edf_writer_create(edf_writer *w);
 
 /* Append frames of one input; writes every record that becomes complete. Frames for a span
  * that was already padded (the input was too late) are dropped and counted. Returns 0 or -1

@@ -530,7 +530,10 @@ static void destroy(void *self)
     if (failed || rc)
         r->host->log(r->host, WEFT_LOG_WARN, "recording to '%s' is incomplete: %s", r->path,
                      failed ? error : r->w.error);
-    report(r);
+    if (r->frames_in)
+        report(r);
+    else
+        r->host->log(r->host, WEFT_LOG_DEBUG, "no samples came; '%s' was not created", r->path);
     edf_writer_free(&r->w);
     free_recorder(r);
 }

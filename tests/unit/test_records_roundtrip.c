@@ -457,3 +457,30 @@ Test(records_roundtrip, a_run_faster_than_real_time_loses_nothing_with_a_small_b
     free(p.data);
     unlink(path);
 }
+
+Test(records_roundtrip, a_recorder_that_gets_no_samples_touches_no_file)
+{
+    /* `weft check` initialises every stage: it must not leave an empty recording behind, nor
+     * clear an old one that the graph may overwrite once it runs. */
+    weft_layout in = { .name = "eeg", .kind = WEFT_STREAM_SAMPLES, .channels = 3, .rate = 250,
+                       .labels = eeg_labels, .max_frames = 64 };
+    char *path = temp_path("n.bdf"), params[300];
+    snprintf(params, sizeof params, "{ path: '%s' }", path);
+    stage_driver sd;
+    diag d = { 0 };
+    cr_assert_eq(stage_driver_open(&sd, RECORDER, params, &in, 1, &d), 0, "%s", d.msg);
+    stage_driver_close(&sd);
+    cr_expect_neq(access(path, F_OK), 0, "an empty recording was left behind");
+    FILE *f = fopen(path, "w");
+    fputs("yesterday", f);
+    fclose(f);
+    snprintf(params, sizeof params, "{ path: '%s', overwrite: true }", path);
+    cr_assert_eq(stage_driver_open(&sd, RECORDER, params, &in, 1, &d), 0, "%s", d.msg);
+    stage_driver_close(&sd);
+    char back[16] = "";
+    f = fopen(path, "r");
+    cr_expect(fgets(back, sizeof back, f) != NULL);
+    fclose(f);
+    cr_expect_str_eq(back, "yesterday");
+    unlink(path);
+}
