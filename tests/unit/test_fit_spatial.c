@@ -39,8 +39,8 @@ Test(fit_spatial, any_block_split_gives_the_same_samples)
     static float in[FRAMES * 6], whole[FRAMES * 6], parts[FRAMES * 6];
     ramp(in, FRAMES, 6);
     static const char *const modes[] = { "{ mode: car }", "{ mode: laplacian }",
-                                         "{ weights: [[1, 2, 3, 4, 5, 6], [0.5, 0, -1, 0, 2, 1],"
-                                         " [-3, 1, 0.25, 0, 0, 9]] }" };
+                                         ("{ weights: [[1, 2, 3, 4, 5, 6], [0.5, 0, -1, 0, 2, 1],"
+                                          " [-3, 1, 0.25, 0, 0, 9]] }") };
     for (size_t m = 0; m < sizeof modes / sizeof modes[0]; m++) {
         stage_driver a, b;
         diag d = { 0 };
