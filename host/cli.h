@@ -17,6 +17,21 @@ int cli_stages(int argc, char **argv);
 int cli_control(int argc, char **argv);
 int cli_fit(int argc, char **argv);
 
+/* --set STAGE.PARAM=VALUE, collected from the command line and applied after loading. */
+#define CLI_MAX_SETS 64
+typedef struct cli_sets {
+    const char *items[CLI_MAX_SETS];
+    unsigned n;
+} cli_sets;
+
+/* Record one --set value; prints a usage error and returns -1 if there is none or too many. */
+int cli_add_set(cli_sets *s, const char *value);
+
+struct graph;
+struct diag;
+/* Apply every recorded --set to a loaded graph. */
+int cli_apply_sets(struct graph *g, const cli_sets *s, struct diag *d);
+
 /* Parse a positive number / whole number option value; print a usage error if bad. */
 int cli_number(const char *opt, const char *text, double *out);
 int cli_count(const char *opt, const char *text, unsigned long *out);

@@ -8,13 +8,11 @@
 #include "cli.h"
 #include "fit.h"
 #include "graph_write.h"
-#include "param_override.h"
-
-#define MAX_CALIBRATE 64
 
 static const char help[] =
-    "usage: weft fit GRAPH -o FITTED [--calibrate STAGE.PARAM=VALUE ...] [--folds K]\n"
-    "                [--duration SECONDS] [--block FRAMES] [--shuffle SEED] [--quiet]\n"
+    "usage: weft fit GRAPH -o FITTED [--folds K] [--duration SECONDS] [--block FRAMES]\n"
+    "                [--shuffle SEED] [--set STAGE.PARAM=VALUE ...]\n"
+    "                [--calibrate STAGE.PARAM=VALUE ...] [--quiet]\n"
     "\n"
     "Fits every fittable stage of GRAPH (spatial filters, readouts) on the labelled data of\n"
     "the graph's own sources, which must end by themselves (a recording, or a synthetic\n"
@@ -23,14 +21,14 @@ static const char help[] =
     "are cut at the markers named in each readout's `fit: classes`. FITTED is GRAPH with the\n"
     "learned values filled in; `weft run FITTED` needs nothing else.\n"
     "  -o FITTED      where to write the fitted graph (required)\n"
-    "  --calibrate STAGE.PARAM=VALUE\n"
-    "                 fit with this parameter value instead of the graph's (e.g.\n"
-    "                 eeg.trials=40, eeg.seed=11, or a recording's path); FITTED keeps the\n"
-    "                 graph's own values. May be repeated.\n"
     "  --folds K      chronological blocks for the accuracy estimate (default 5; 1: none).\n"
     "                 Block f is tested after fitting on blocks before it only.\n"
     "  --duration S   use the first S seconds of data\n"
     "  --block N      frames per source request (results do not depend on it)\n"
+    "  --set STAGE.PARAM=VALUE        change a parameter of the graph (written into FITTED)\n"
+    "  --calibrate STAGE.PARAM=VALUE  change a parameter only while fitting, e.g. point\n"
+    "                 a synthetic source at a calibration session (--calibrate eeg.trials=40\n"
+    "                 --calibrate eeg.seed=11); FITTED keeps the graph's own value\n"
     "  --shuffle SEED permute the classes over the trials before fitting: a check that the\n"
     "                 accuracy falls to chance; the fitted graph is marked and not for use\n"
     "  --quiet        no progress or summary on stderr\n"
@@ -42,8 +40,7 @@ typedef struct fit_args {
     int shuffle;
     double duration;
     int quiet;
-    char *calibrate[MAX_CALIBRATE];
-    unsigned n_calibrate;
+    cli_sets sets, calibrate;
 } fit_args;
 
 static int parse_args(int argc, char **argv, fit_args *a)
@@ -62,13 +59,6 @@ static int parse_args(int argc, char **argv, fit_args *a)
                 return -1;
             }
             a->out = argv[++i];
-        } else if (!strcmp(arg, "--calibrate")) {
-            if (!next || a->n_calibrate == MAX_CALIBRATE) {
-                fprintf(stderr, "weft fit: %s\n", next ? "at most 64 --calibrate values"
-                                                       : "--calibrate needs STAGE.PARAM=VALUE");
-                return -1;
-            }
-            a->calibrate[a->n_calibrate++] = argv[++i];
         } else if (!strcmp(arg, "--folds")) {
             if (cli_count(arg, next, &a->folds))
                 return -1;
@@ -96,6 +86,10 @@ static int parse_args(int argc, char **argv, fit_args *a)
             a->shuffle = 1;
         } else if (!strcmp(arg, "--quiet")) {
             a->quiet = 1;
+        } else if (!strcmp(arg, "--set") || !strcmp(arg, "--calibrate")) {
+            if (cli_add_set(arg[2] == 's' ? &a->sets : &a->calibrate, next))
+                return -1;
+            i++;
         } else if (arg[0] == '-') {
             fprintf(stderr, "weft fit: unknown option '%s'\n\n%s", arg, help);
             return -1;
@@ -139,7 +133,7 @@ static size_t describe_readout(const pipeline *pl, const fit_readout_summary *rs
 
 static char *make_header(const fit_args *a, const pipeline *pl, const fit_summary *s)
 {
-    size_t size = 1024 + (size_t)s->n_readouts * 512 + (size_t)a->n_calibrate * 256;
+    size_t size = 1024 + (size_t)s->n_readouts * 512 + (size_t)a->calibrate.n * 160;
     char *h = malloc(size);
     if (!h)
         return NULL;
@@ -155,13 +149,10 @@ static char *make_header(const fit_args *a, const pipeline *pl, const fit_summar
         "(FNV-1a over every source's samples and marker labels; it tells data apart, it is\n"
         "not cryptographic).\n",
         a->graph, when, s->data_seconds, s->n_markers, (unsigned long long)s->data_hash);
-    if (a->n_calibrate && len < size) {
-        len += (size_t)snprintf(h + len, size - len, "Calibration values (FITTED keeps its own):");
-        for (unsigned i = 0; i < a->n_calibrate && len < size; i++)
-            len += (size_t)snprintf(h + len, size - len, " %s", a->calibrate[i]);
-        if (len < size)
-            len += (size_t)snprintf(h + len, size - len, "\n");
-    }
+    for (unsigned i = 0; i < a->calibrate.n && len < size; i++)
+        len += (size_t)snprintf(h + len, size - len, "%s%.120s%s",
+                                i ? ", " : "Fitted with --calibrate ", a->calibrate.items[i],
+                                i + 1 == a->calibrate.n ? " (not written below).\n" : "");
     if (a->shuffle && len < size)
         len += (size_t)snprintf(h + len, size - len,
                                 "CLASSES SHUFFLED over the trials (--shuffle %lu): a chance-level "
@@ -200,25 +191,17 @@ int cli_fit(int argc, char **argv)
     if (rc)
         return rc > 0 ? EXIT_OK : EXIT_USAGE;
     diag d = { 0 };
-    graph g;
+    graph g, written;
     pipeline pl;
     pipeline_options opt = { .block = (uint32_t)a.block, .for_fit = 1 };
-    param_override po = { 0 };
-    if (graph_load(&g, a.graph, NULL, &d)) {
+    /* `written` is the graph as FITTED will say it: without the --calibrate changes. */
+    memset(&written, 0, sizeof written);
+    if (graph_load(&g, a.graph, NULL, &d) || cli_apply_sets(&g, &a.sets, &d) ||
+        graph_load(&written, a.graph, NULL, &d) || cli_apply_sets(&written, &a.sets, &d) ||
+        cli_apply_sets(&g, &a.calibrate, &d) || pipeline_open(&pl, &g, &opt, &d)) {
         fprintf(stderr, "weft: %s\n", d.msg);
         graph_free(&g);
-        return EXIT_INVALID;
-    }
-    if (param_override_apply(&po, &g, a.calibrate, a.n_calibrate, &d)) {
-        fprintf(stderr, "weft: %s\n", d.msg);
-        param_override_undo(&po);
-        graph_free(&g);
-        return EXIT_USAGE;
-    }
-    if (pipeline_open(&pl, &g, &opt, &d)) {
-        fprintf(stderr, "weft: %s\n", d.msg);
-        param_override_undo(&po);
-        graph_free(&g);
+        graph_free(&written);
         return EXIT_INVALID;
     }
     fit_options fo = { .folds = (unsigned)a.folds, .duration = a.duration,
@@ -226,11 +209,11 @@ int cli_fit(int argc, char **argv)
                        .shuffle_seed = a.shuffle_seed };
     fit_summary sum;
     rc = fit_pipeline(&pl, &fo, &sum, &d);
-    /* The fitted graph is written with the graph's own parameters plus the learned ones. */
-    param_override_undo(&po);
     char *header = rc ? NULL : make_header(&a, &pl, &sum);
     if (rc == 0 && !header)
         rc = diag_set(&d, "out of memory");
+    for (unsigned i = 0; rc == 0 && a.calibrate.n && i < g.n_stages; i++)
+        g.stages[i].params = written.stages[i].params; /* both loads have the same stages */
     if (rc == 0)
         rc = graph_write(&pl, header, a.out, &d);
     diag reopen = { 0 };
@@ -251,6 +234,7 @@ int cli_fit(int argc, char **argv)
     free(header);
     fit_summary_free(&sum);
     pipeline_close(&pl);
+    graph_free(&written);
     graph_free(&g);
     return rc ? EXIT_FAILED : EXIT_OK;
 }

@@ -13,6 +13,7 @@
 static const char help[] =
     "usage: weft run GRAPH [--duration SECONDS] [--realtime] [--block FRAMES]\n"
     "                      [--session-log FILE] [--control SOCKET] [--quiet]\n"
+    "                      [--set STAGE.PARAM=VALUE ...]\n"
     "\n"
     "Runs the graph: sources -> filters -> readouts (queried on schedule) -> sinks.\n"
     "  --duration S   stop after S seconds of stream time\n"
@@ -25,6 +26,8 @@ static const char help[] =
     "  --control SOCKET  listen on this Unix socket (owner-only) for `weft status`,\n"
     "                 `weft swap` and `weft stop`; filters keep 2 s of input to warm up a\n"
     "                 replacement\n"
+    "  --set STAGE.PARAM=VALUE  change one parameter as if the graph file said so (e.g.\n"
+    "                 --set eeg.seed=12 for another synthetic session); repeatable\n"
     "  --quiet        no summary on stderr\n"
     "Without --realtime, bounded sources (recordings) and any run with --duration go as fast\n"
     "as possible; an unbounded source without --duration is paced to the clock.\n"
@@ -47,6 +50,7 @@ typedef struct run_args {
     double duration;
     unsigned long block;
     int realtime, quiet;
+    cli_sets sets;
 } run_args;
 
 static int parse_args(int argc, char **argv, run_args *a)
@@ -67,6 +71,9 @@ static int parse_args(int argc, char **argv, run_args *a)
                 return -1;
             }
             a->session_log = argv[++i];
+        } else if (!strcmp(arg, "--set")) {
+            if (cli_add_set(&a->sets, i + 1 < argc ? argv[++i] : NULL))
+                return -1;
         } else if (!strcmp(arg, "--control")) {
             if (i + 1 >= argc) {
                 fprintf(stderr, "weft: --control needs a socket path\n");
@@ -151,7 +158,8 @@ int cli_run(int argc, char **argv)
     pipeline pl;
     pipeline_options opt = { .block = (uint32_t)a.block,
                              .swap_warmup = a.control ? SWAP_WARMUP_SECONDS : 0 };
-    if (graph_load(&g, a.graph, NULL, &d) || pipeline_open(&pl, &g, &opt, &d)) {
+    if (graph_load(&g, a.graph, NULL, &d) || cli_apply_sets(&g, &a.sets, &d) ||
+        pipeline_open(&pl, &g, &opt, &d)) {
         fprintf(stderr, "weft: %s\n", d.msg);
         graph_free(&g);
         return EXIT_INVALID;

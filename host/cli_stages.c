@@ -60,8 +60,10 @@ static void describe(const plugin *p)
             printf(", default %s", s->default_text);
         else
             printf(", required");
-        if (s->min <= s->max)
-            printf(", %g..%g", s->min, s->max);
+        if (s->min <= s->max && s->type == WEFT_PARAM_INTEGER)
+            printf(", %.0f..%.0f", s->min, s->max); /* %g would show 2147483647 as 2.14748e+09 */
+        else if (s->min <= s->max)
+            printf(", %.15g..%.15g", s->min, s->max);
         if (s->unit && s->unit[0])
             printf(" %s", s->unit);
         printf("\n");

@@ -57,3 +57,15 @@ void text_double(text_line *t, double v)
         snprintf(tmp, sizeof tmp, "%.17g", v);
     text_put(t, tmp);
 }
+
+void text_seconds(text_line *t, double seconds)
+{
+    char tmp[48];
+    snprintf(tmp, sizeof tmp, "%.6f", seconds);
+    char *end = tmp + strlen(tmp) - 1;
+    while (end > tmp && *end == '0')
+        *end-- = 0;
+    if (*end == '.')
+        *end = 0;
+    text_put(t, tmp);
+}

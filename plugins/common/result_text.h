@@ -18,6 +18,9 @@ void text_printf(text_line *t, const char *fmt, ...);
 void text_json_string(text_line *t, const char *s);
 /* s as a CSV field, quoted if it holds a comma, quote or newline (RFC 4180). */
 void text_csv_field(text_line *t, const char *s);
+/* Seconds to the microsecond, without trailing zeros ("1.2", not "1.2000000000000002"):
+ * query times are k * every, whose binary rounding is noise, not information. */
+void text_seconds(text_line *t, double seconds);
 /* A double in the shortest form that reads back the same (up to 17 digits). */
 void text_double(text_line *t, double v);
 

@@ -96,7 +96,7 @@ static int deliver(void *self, uint32_t input, const weft_result *r)
     text_line t = { c->line, sizeof c->line, 0, 0 };
     text_csv_field(&t, c->in.name ? c->in.name : "");
     text_printf(&t, ",%llu,", (unsigned long long)r->seq);
-    text_double(&t, r->time);
+    text_seconds(&t, r->time);
     text_printf(&t, ",%llu,", (unsigned long long)r->index);
     if (r->trigger)
         text_csv_field(&t, r->trigger);

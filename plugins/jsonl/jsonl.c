@@ -88,7 +88,7 @@ static int deliver(void *self, uint32_t input, const weft_result *r)
     text_put(&t, "{\"stage\":");
     text_json_string(&t, l->name ? l->name : "");
     text_printf(&t, ",\"seq\":%llu,\"time\":", (unsigned long long)r->seq);
-    text_double(&t, r->time);
+    text_seconds(&t, r->time);
     text_printf(&t, ",\"index\":%llu,\"trigger\":", (unsigned long long)r->index);
     if (r->trigger)
         text_json_string(&t, r->trigger);

@@ -36,6 +36,14 @@ check "stages lists the synthetic source" grep -q "synthetic .* source" "$tmp/st
 check "describe shows a parameter with unit and range" grep -q "rate .*number, default 250, 10..100000 Hz" "$tmp/describe"
 "$WEFT" stages --describe nosuch >/dev/null 2>&1; check "describing a missing plugin is 3" test $? -eq 3
 
+# --set changes a parameter with the same checks as the file.
+"$WEFT" check "$WEFT_SOURCE_DIR/tests/e2e/graphs/two-rates.yaml" --set eeg.seed=99 > "$tmp/set"
+check "--set changes a parameter" grep -q "seed         99" "$tmp/set"
+"$WEFT" check "$WEFT_SOURCE_DIR/tests/e2e/graphs/two-rates.yaml" --set eeg.sed=99 >/dev/null 2>"$tmp/err"
+check "--set with an unknown parameter is refused with a suggestion" grep -q "did you mean 'seed'" "$tmp/err"
+"$WEFT" check "$WEFT_SOURCE_DIR/tests/e2e/graphs/two-rates.yaml" --set nosuch.x=1 >/dev/null 2>"$tmp/err"
+check "--set on an unknown stage is refused" grep -q "no stage 'nosuch'" "$tmp/err"
+
 # A source that fails at sample 1000 (4 s at 250 Hz): the error names stage and sample, the
 # results of the 4 s before are all written, and the exit code is 1.
 cat > "$tmp/fail.yaml" <<G

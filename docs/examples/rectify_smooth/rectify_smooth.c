@@ -11,7 +11,7 @@ static const weft_param_spec params[] = {
     { "mode", WEFT_PARAM_CHOICE, 0, "full", WEFT_NO_RANGE, "", "full|half",
       "full: |x|; half: max(x, 0)" },
     { "gain", WEFT_PARAM_NUMBER, 0, "1", -1e6, 1e6, "", NULL, "factor applied to the output" },
-    { NULL },
+    { .name = NULL },
 };
 
 typedef struct rectify_smooth {
