@@ -39,7 +39,7 @@ Test(fit_spatial, any_block_split_gives_the_same_samples)
     static float in[FRAMES * 6], whole[FRAMES * 6], parts[FRAMES * 6];
     ramp(in, FRAMES, 6);
     static const char *const modes[] = { "{ mode: car }", "{ mode: laplacian }",
-                                         ("{ weights: [[1, 2, 3, 4, 5, 6], [0.5, 0, -1, 0, 2, 1],"
+                                         ("{ mode: matrix, weights: [[1, 2, 3, 4, 5, 6], [0.5, 0, -1, 0, 2, 1],"
                                           " [-3, 1, 0.25, 0, 0, 9]] }") };
     for (size_t m = 0; m < sizeof modes / sizeof modes[0]; m++) {
         stage_driver a, b;
@@ -132,9 +132,19 @@ Test(fit_spatial, wrong_weight_columns_name_the_input_channels)
 {
     stage_driver sd;
     diag d = { 0 };
-    cr_assert_neq(stage_driver_open(&sd, SPATIAL, "{ weights: [[1, 0], [0, 1]] }", &six, 1, &d),
+    cr_assert_neq(stage_driver_open(&sd, SPATIAL, "{ mode: matrix, weights: [[1, 0], [0, 1]] }", &six, 1, &d),
                   0);
     cr_assert(strstr(d.msg, "weights is 2 x 2") && strstr(d.msg, "C_in = 6"), "%s", d.msg);
+    stage_driver_close(&sd);
+}
+
+Test(fit_spatial, weights_outside_mode_matrix_are_an_error)
+{
+    stage_driver sd;
+    diag d = { 0 };
+    cr_assert_neq(stage_driver_open(&sd, SPATIAL, "{ weights: [[1, 0, 0, 0, 0, 0]] }", &six, 1,
+                                    &d), 0);
+    cr_assert(strstr(d.msg, "only used with mode: matrix"), "%s", d.msg);
     stage_driver_close(&sd);
 }
 
