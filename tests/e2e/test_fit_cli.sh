@@ -102,6 +102,26 @@ sys.exit(not (len(w) == 2 and all(len(r) == 6 for r in w)))"
 read acc n < <("$PYTHON" "$helper" accuracy "$tmp/hybrid.jsonl")
 check "hybrid fresh-session accuracy $acc over $n cues > 0.9" above "$acc" 0.9
 
+# Fitting on a recording: the calibration session recorded to BDF+ (with its cues as
+# annotations) and replayed by the edf source gives the same trials and accuracy.
+cat > "$tmp/record.yaml" <<G
+weft: 1
+stages:
+  eeg: { plugin: synthetic, params: { channels: 8, rate: 250, seed: 31, subject: 5, trials: 30 } }
+  emg: { plugin: synthetic, params: { signal: emg, channels: 2, rate: 1000, seed: 31, subject: 5, trials: 30, markers: false } }
+  rec: { plugin: recorder, input: [eeg, emg], params: { path: $tmp/calib.bdf } }
+G
+"$WEFT" run "$tmp/record.yaml" --quiet 2>/dev/null
+check "the calibration session is recorded" test -s "$tmp/calib.bdf"
+sed -e "s|eeg: { plugin: synthetic.*|eeg: { plugin: edf, params: { path: $tmp/calib.bdf, stream: eeg } }|" \
+    -e "s|emg: { plugin: synthetic.*|emg: { plugin: edf, params: { path: $tmp/calib.bdf, stream: emg, markers: false } }|" \
+    "$tmp/hybrid.yaml" > "$tmp/from-recording.yaml"
+"$WEFT" fit "$tmp/from-recording.yaml" -o "$tmp/from-recording-fitted.yaml" 2>"$tmp/err"
+check "fitting on the recording exits 0" test $? -eq 0
+check "... finds the recorded cues" grep -q "trials rest 15, grip 15" "$tmp/from-recording-fitted.yaml"
+cv="$("$PYTHON" "$helper" cv "$tmp/from-recording-fitted.yaml")"
+check "... with cross-validated accuracy $cv > 0.9" above "$cv" 0.9
+
 # Errors a user can act on.
 sed 's/trials: 40, //' "$tmp/eeg.yaml" > "$tmp/endless.yaml"
 "$WEFT" fit "$tmp/endless.yaml" -o "$tmp/x.yaml" 2>"$tmp/err"; rc=$?
