@@ -122,6 +122,14 @@ check "... finds the recorded cues" grep -q "trials rest 15, grip 15" "$tmp/from
 cv="$("$PYTHON" "$helper" cv "$tmp/from-recording-fitted.yaml")"
 check "... with cross-validated accuracy $cv > 0.9" above "$cv" 0.9
 
+# Sinks never run while fitting, and are not even opened: a recorder in the graph creates no
+# file (and so the fitted graph, opened once to check it, does not trip over one).
+cp "$tmp/hybrid.yaml" "$tmp/with-sink.yaml"
+echo "  rec: { plugin: recorder, input: [eeg, emg], params: { path: $tmp/never.bdf } }" >> "$tmp/with-sink.yaml"
+"$WEFT" fit "$tmp/with-sink.yaml" -o "$tmp/with-sink-fitted.yaml" --quiet
+check "a graph with a recorder fits" test $? -eq 0
+check "... and fitting recorded nothing" test ! -e "$tmp/never.bdf"
+
 # Errors a user can act on.
 sed 's/trials: 40, //' "$tmp/eeg.yaml" > "$tmp/endless.yaml"
 "$WEFT" fit "$tmp/endless.yaml" -o "$tmp/x.yaml" 2>"$tmp/err"; rc=$?
