@@ -72,16 +72,16 @@ static const char *const scalp_names[] = {
 static int make_labels(checker *c, uint32_t max_channels)
 {
     const uint32_t n_scalp = sizeof scalp_names / sizeof scalp_names[0];
-    c->label_block = malloc((size_t)max_channels * 12);
+    c->label_block = malloc((size_t)max_channels * 16);
     c->labels = malloc((size_t)max_channels * sizeof *c->labels);
     if (!c->label_block || !c->labels)
         return -1;
     for (uint32_t i = 0; i < max_channels; i++) {
-        char *label = c->label_block + (size_t)i * 12;
+        char *label = c->label_block + (size_t)i * 16;
         if (i < n_scalp)
-            snprintf(label, 12, "%s", scalp_names[i]);
+            snprintf(label, 16, "%s", scalp_names[i]);
         else
-            snprintf(label, 12, "ch%u", (unsigned)(i + 1));
+            snprintf(label, 16, "ch%u", (unsigned)(i + 1));
         c->labels[i] = label;
     }
     return 0;
