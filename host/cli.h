@@ -12,6 +12,7 @@ enum {
 
 int cli_check(int argc, char **argv);
 int cli_run(int argc, char **argv);
+int cli_replay(int argc, char **argv);
 int cli_stages(int argc, char **argv);
 /* status, stop, swap: argv[0] is the command. */
 int cli_control(int argc, char **argv);

@@ -14,6 +14,7 @@ static const char usage[] =
     "commands:\n"
     "  check GRAPH        validate a graph file and print it resolved\n"
     "  run GRAPH          run a graph (see weft run --help)\n"
+    "  replay GRAPH --data REC  run a graph on a recording and score it against its cues\n"
     "  stages [NAME]      list the plugins found and their parameters\n"
     "  status SOCKET      ask a running graph (run --control SOCKET) how it is doing\n"
     "  swap SOCKET STAGE  replace a stage of a running graph, losing no sample\n"
@@ -45,6 +46,8 @@ int main(int argc, char **argv)
         return cli_run(argc - 1, argv + 1);
     if (!strcmp(cmd, "fit"))
         return cli_fit(argc - 1, argv + 1);
+    if (!strcmp(cmd, "replay"))
+        return cli_replay(argc - 1, argv + 1);
     if (!strcmp(cmd, "stages"))
         return cli_stages(argc - 1, argv + 1);
     if (!strcmp(cmd, "status") || !strcmp(cmd, "stop") || !strcmp(cmd, "swap"))

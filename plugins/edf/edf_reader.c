@@ -339,7 +339,37 @@ static int mark_gaps(reader *r)
     return WEFT_OK;
 }
 
-static int load_markers(reader *r)
+static void drop_markers(reader *r)
+{
+    for (size_t i = 0; i < r->n_markers; i++)
+        free(r->markers[i].label);
+    r->n_markers = 0;
+}
+
+/* The recorder fills the tail of its last data record and marks it "pad STREAM"; the stream
+ * is played as it was recorded, without the filler. */
+static void trim_trailing_pad(reader *r, const char *stream)
+{
+    char label[EDF_LABEL_CHARS + 80];
+    snprintf(label, sizeof label, "pad %s", stream);
+    for (size_t i = 0; stream[0] && i < r->n_markers; i++) {
+        const file_marker *m = &r->markers[i];
+        uint64_t end = m->index + (uint64_t)llround(m->duration * r->rate);
+        if (strcmp(m->label, label) || m->index >= r->total || end < r->total ||
+            r->total - m->index > r->spr)
+            continue;
+        r->host->log(r->host, WEFT_LOG_DEBUG, "'%s': the last %llu samples of '%s' fill the "
+                     "last record and are not played", r->path,
+                     (unsigned long long)(r->total - m->index), stream);
+        r->total = m->index;
+        free(r->markers[i].label);
+        memmove(&r->markers[i], &r->markers[i + 1], (r->n_markers - i - 1) * sizeof *m);
+        r->n_markers--;
+        return;
+    }
+}
+
+static int load_markers(reader *r, const char *stream)
 {
     if (!r->h.plus)
         return WEFT_OK;
@@ -355,12 +385,13 @@ static int load_markers(reader *r)
         r->host->error(r->host, "out of memory for the annotations of '%s'", r->path);
     if (rc)
         return rc;
+    trim_trailing_pad(r, stream);
     size_t kept = 0, late = 0;
     for (size_t i = 0; i < r->n_markers; i++) {
         if (r->markers[i].index < r->total)
             r->markers[kept++] = r->markers[i];
         else
-            free(r->markers[i].label), late++;
+            late += strncmp(r->markers[i].label, "pad ", 4) != 0, free(r->markers[i].label);
     }
     r->n_markers = kept;
     if (late)
@@ -536,8 +567,10 @@ static int init(const weft_host *host, const weft_params *p, const weft_layout *
         r->total = r->n_records * r->spr;
         rc = alloc_buffer(r);
     }
-    if (rc == WEFT_OK && weft_param_number(p, "markers") != 0)
-        rc = load_markers(r);
+    if (rc == WEFT_OK)
+        rc = load_markers(r, weft_param_text(p, "stream"));
+    if (rc == WEFT_OK && weft_param_number(p, "markers") == 0)
+        drop_markers(r);
     if (rc == WEFT_ENOMEM)
         host->error(host, "out of memory reading '%s'", r->path);
     r->path = NULL; /* the parameter text is only valid during init */

@@ -111,6 +111,7 @@ static int build_header(edf_writer *w, const edf_writer_spec *spec, char *err, s
         w->in[k].channels = in->channels;
         w->in[k].rate = in->rate;
         w->in[k].first_signal = s;
+        snprintf(w->in[k].name, sizeof w->in[k].name, "%s", in->name ? in->name : "?");
         for (uint32_t c = 0; c < in->channels; c++, s++) {
             edf_signal *sig = &h->signals[s];
             snprintf(sig->label, sizeof sig->label, "%s", in->labels[c]);
@@ -310,7 +311,9 @@ static void pad_input(edf_writer *w, edf_writer_input *in, uint64_t end)
 {
     if (in->have >= end)
         return;
-    queue_marker(w, (double)in->have / in->rate, (double)(end - in->have) / in->rate, "pad");
+    char label[EDF_WRITER_LABEL_MAX];
+    snprintf(label, sizeof label, "pad %s", in->name);
+    queue_marker(w, (double)in->have / in->rate, (double)(end - in->have) / in->rate, label);
     for (uint64_t f = in->have; f < end; f++)
         memcpy(in->stage + (f % in->stage_frames) * in->channels, in->last,
                in->channels * sizeof *in->last);
@@ -402,12 +405,14 @@ int edf_writer_samples(edf_writer *w, uint32_t input, const float *frames, uint6
     return stage_frames(w, input, frames + skip * in->channels, n - skip, 0);
 }
 
-int edf_writer_fill(edf_writer *w, uint32_t input, uint64_t n, const char *label)
+int edf_writer_fill(edf_writer *w, uint32_t input, uint64_t n)
 {
     edf_writer_input *in = &w->in[input];
     uint64_t skip = late_frames(in, n);
     if (n == skip)
         return 0;
+    char label[EDF_WRITER_LABEL_MAX];
+    snprintf(label, sizeof label, "lost %s", in->name);
     queue_marker(w, (double)in->have / in->rate, (double)(n - skip) / in->rate, label);
     return stage_frames(w, input, NULL, n - skip, 1);
 }

@@ -17,6 +17,7 @@ typedef struct edf_writer_input_spec {
     double rate;
     double range;                   /* physical range is -range .. +range */
     const char *const *labels;      /* `channels` EDF labels, at most 16 characters */
+    const char *name;               /* the stream's name, for "pad NAME" / "lost NAME" */
 } edf_writer_input_spec;
 
 typedef struct edf_writer_spec {
@@ -34,6 +35,7 @@ typedef struct edf_writer_spec {
 } edf_writer_spec;
 
 typedef struct edf_writer_input {
+    char name[EDF_WRITER_LABEL_MAX - 8];
     uint32_t channels, spr, first_signal;
     double rate;
     float *stage;                   /* ring of stage_frames frames not yet in a record */
@@ -77,8 +79,9 @@ int edf_writer_open(edf_writer *w, const char *path, const edf_writer_spec *spec
 int edf_writer_samples(edf_writer *w, uint32_t input, const float *frames, uint64_t n);
 
 /* `n` frames of an input were lost before reaching the writer: hold its last value over them
- * and mark the span with a `label` annotation, so the other inputs stay aligned. */
-int edf_writer_fill(edf_writer *w, uint32_t input, uint64_t n, const char *label);
+ * and mark the span "lost NAME", so the other inputs stay aligned. Padding (the last record's
+ * tail, an input far behind the others) is marked "pad NAME" the same way. */
+int edf_writer_fill(edf_writer *w, uint32_t input, uint64_t n);
 
 /* A marker at `index` on input `input`'s stream. */
 void edf_writer_marker_at(edf_writer *w, uint32_t input, uint64_t index, double duration,

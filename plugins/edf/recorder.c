@@ -7,7 +7,11 @@
  * header's record count is rewritten right after; a run killed at any moment (SIGKILL, power
  * aside) leaves a valid file holding every record but the one in progress. If the disk falls
  * behind by more than `buffer` seconds, the samples that do not fit the queue are replaced by
- * the last value and marked "lost", so the streams stay aligned; the count is reported. */
+ * the last value and marked "lost NAME", so the streams stay aligned; the count is reported.
+ * A run going faster than real time (a replay, a synthetic run without --realtime) has no
+ * live person or device to keep up with: there the recorder waits for room instead, so an
+ * offline recording is always complete. It tells the two apart by its input: a stream ahead
+ * of the wall clock by more than AHEAD_SECONDS cannot be live. */
 #include <math.h>
 #include <pthread.h>
 #include <stdatomic.h>
@@ -25,6 +29,7 @@
 #define ITEM_BYTES_MAX 16384        /* a large block goes into the queue in pieces */
 #define QUEUE_MIN_BYTES (256u * 1024)
 #define IDLE_NANOSECONDS 5000000L   /* the writer looks at the queue every 5 ms when idle */
+#define AHEAD_SECONDS 1.0
 /* Default physical ranges: 16-bit EDF at about 0.1 uV per step, 24-bit BDF at 1/32 uV. */
 #define EDF_DEFAULT_RANGE 3276.8
 #define BDF_DEFAULT_RANGE 262144.0
@@ -73,6 +78,8 @@ typedef struct recorder {
     double range[MAX_INPUTS];
     uint64_t lost[MAX_INPUTS];  /* frames waiting to be reported to the writer as lost */
     uint64_t lost_total, markers_dropped, frames_in;
+    uint64_t received[MAX_INPUTS];  /* frames per input, for the pace */
+    double first_call;          /* monotonic clock at the first process call; 0 before */
     char unit[9];
     item_queue q;
     edf_writer w;
@@ -99,7 +106,7 @@ static int handle(recorder *r, const item *it)
         edf_writer_marker_at(&r->w, it->input, it->index, it->duration, it->label);
         return 0;
     case ITEM_LOST:
-        return edf_writer_fill(&r->w, it->input, it->index, "lost");
+        return edf_writer_fill(&r->w, it->input, it->index);
     }
     return 0;
 }
@@ -255,10 +262,14 @@ static int make_labels(recorder *r, const weft_layout *in)
                 if (!cut++)
                     snprintf(first_cut, sizeof first_cut, "'%.48s' -> '%.16s'", full,
                              r->labels[s]);
-                for (uint32_t j = 0; j < s; j++)
-                    if (!strcmp(r->labels[j], r->labels[s]))
-                        snprintf(r->labels[s], sizeof r->labels[s], "%s.%s", r->stage[k],
-                                 number);
+                for (uint32_t j = 0; j < s; j++) {
+                    if (strcmp(r->labels[j], r->labels[s]) != 0)
+                        continue;
+                    /* EDF labels hold 16 characters: keep the first 16 of this one */
+                    char numbered[40];
+                    snprintf(numbered, sizeof numbered, "%.13s.%.15s", r->stage[k], number);
+                    snprintf(r->labels[s], sizeof r->labels[s], "%.16s", numbered);
+                }
             }
             r->label_ptrs[s] = r->labels[s];
         }
@@ -294,7 +305,7 @@ static int open_file(recorder *r, const weft_params *p, int bdf)
     uint32_t s = 0;
     for (uint32_t k = 0; k < r->n_in; k++) {
         specs[k] = (edf_writer_input_spec){ r->channels[k], r->rate[k], r->range[k],
-                                            r->label_ptrs + s };
+                                            r->label_ptrs + s, r->stage[k] };
         s += r->channels[k];
     }
     double record = r->record_seconds;
@@ -374,9 +385,38 @@ static int init(const weft_host *host, const weft_params *p, const weft_layout *
 
 /* ---- the run loop's side ----------------------------------------------------------------- */
 
+static double mono_seconds(void)
+{
+    struct timespec ts;
+    clock_gettime(CLOCK_MONOTONIC, &ts);
+    return (double)ts.tv_sec + ts.tv_nsec * 1e-9;
+}
+
+/* More stream than wall time has passed: the run is not paced, nothing live waits on it. */
+static int offline(const recorder *r)
+{
+    double stream = 0;
+    for (uint32_t k = 0; k < r->n_in; k++)
+        if ((double)r->received[k] / r->rate[k] > stream)
+            stream = (double)r->received[k] / r->rate[k];
+    return stream - (mono_seconds() - r->first_call) > AHEAD_SECONDS;
+}
+
+/* Room for an item: at once when live; offline, after waiting for the writer if need be. */
+static void *reserve(recorder *r, size_t size)
+{
+    void *it = item_queue_reserve(&r->q, size);
+    while (!it && offline(r) && !atomic_load(&r->failed)) {
+        struct timespec pause = { 0, 1000000L };
+        nanosleep(&pause, NULL);
+        it = item_queue_reserve(&r->q, size);
+    }
+    return it;
+}
+
 static int push_marker(recorder *r, uint32_t k, const weft_marker *m)
 {
-    item *it = item_queue_reserve(&r->q, sizeof *it);
+    item *it = reserve(r, sizeof *it);
     if (!it) {
         r->markers_dropped++;
         return -1;
@@ -393,7 +433,7 @@ static int push_lost(recorder *r, uint32_t k)
 {
     if (!r->lost[k])
         return 0;
-    item *it = item_queue_reserve(&r->q, sizeof *it);
+    item *it = reserve(r, sizeof *it);
     if (!it)
         return -1;
     *it = (item){ .kind = ITEM_LOST, .input = k, .index = r->lost[k] };
@@ -408,13 +448,14 @@ static void push_block(recorder *r, uint32_t k, const weft_block *b)
         push_marker(r, k, &b->markers[m]);
     uint32_t done = 0, ch = r->channels[k];
     r->frames_in += b->frames;
+    r->received[k] += b->frames;
     while (done < b->frames) {
         uint32_t n = b->frames - done;
         if (n > r->chunk_frames[k])
             n = r->chunk_frames[k];
         uint8_t *it = NULL;
         if (push_lost(r, k) == 0)
-            it = item_queue_reserve(&r->q, SAMPLES_OFFSET + (size_t)n * ch * sizeof(float));
+            it = reserve(r, SAMPLES_OFFSET + (size_t)n * ch * sizeof(float));
         if (!it) {
             r->lost[k] += b->frames - done;
             r->lost_total += b->frames - done;
@@ -431,6 +472,8 @@ static int process(void *self, const weft_block *in, uint32_t n_in, weft_block *
 {
     (void)out;
     recorder *r = self;
+    if (r->first_call == 0)
+        r->first_call = mono_seconds();
     if (atomic_load(&r->failed)) {
         r->host->error(r->host, "recording to '%s' failed: %s", r->path, r->w.error);
         return WEFT_EIO;
@@ -459,12 +502,12 @@ static void report(recorder *r)
                    r->range[k], r->unit);
         if (in->late)
             h->log(h, WEFT_LOG_WARN, "%llu samples of '%s' came more than `buffer` seconds "
-                   "after the other inputs and were dropped (marked \"pad\")",
-                   (unsigned long long)in->late, r->stage[k]);
+                   "after the other inputs and were dropped (marked \"pad %s\")",
+                   (unsigned long long)in->late, r->stage[k], r->stage[k]);
     }
     if (r->lost_total)
         h->log(h, WEFT_LOG_WARN, "%llu frames could not be queued (the disk fell behind by more "
-               "than `buffer` seconds) and were marked \"lost\"",
+               "than `buffer` seconds) and were marked \"lost STAGE\"",
                (unsigned long long)r->lost_total);
     if (r->markers_dropped || markers_lost)
         h->log(h, WEFT_LOG_WARN, "%llu markers could not be written",
@@ -477,12 +520,13 @@ static void destroy(void *self)
     if (!r)
         return;
     if (r->thread_running) {
-        /* The last losses go in before the writer's final drain. */
-        for (uint32_t k = 0; k < r->n_in; k++)
-            push_lost(r, k);
         atomic_store(&r->stopping, 1);
         pthread_join(r->thread, NULL);
     }
+    /* Losses not yet reported to the writer go in now that its thread is gone. */
+    for (uint32_t k = 0; k < r->n_in; k++)
+        if (r->lost[k] && !atomic_load(&r->failed) && edf_writer_fill(&r->w, k, r->lost[k]))
+            atomic_store(&r->failed, 1);
     int failed = atomic_load(&r->failed);
     char error[256];
     snprintf(error, sizeof error, "%s", r->w.error);

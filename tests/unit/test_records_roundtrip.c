@@ -435,3 +435,23 @@ Test(records_roundtrip, samples_outside_the_range_are_clipped_to_it)
     free(p.data);
     unlink(path);
 }
+
+Test(records_roundtrip, a_run_faster_than_real_time_loses_nothing_with_a_small_buffer)
+{
+    /* 60 s of data arrive in milliseconds: far ahead of the clock, so the recorder waits for
+     * its writer instead of dropping what does not fit its 1-second queue. */
+    char *path = temp_path("f.bdf");
+    record(path, ", buffer: 1", 60.0);
+    played p;
+    diag d = { 0 };
+    char params[300];
+    snprintf(params, sizeof params, "{ path: '%s', stream: eeg }", path);
+    cr_assert_eq(play(params, &p, &d), 0, "%s", d.msg);
+    cr_expect_eq(p.frames, 60 * 250);
+    expect_eeg(&p, 2 * 262144.0 / 16777215.0);
+    for (uint32_t m = 0; m < p.n_markers; m++)
+        cr_expect(strncmp(p.markers[m].label, "lost", 4), "marker '%s' at %llu",
+                  p.markers[m].label, (unsigned long long)p.markers[m].index);
+    free(p.data);
+    unlink(path);
+}
