@@ -11,7 +11,8 @@
 
 static const char help[] =
     "usage: weft fit GRAPH -o FITTED [--folds K] [--duration SECONDS] [--block FRAMES]\n"
-    "                [--shuffle SEED] [--quiet]\n"
+    "                [--shuffle SEED] [--set STAGE.PARAM=VALUE ...]\n"
+    "                [--calibrate STAGE.PARAM=VALUE ...] [--quiet]\n"
     "\n"
     "Fits every fittable stage of GRAPH (spatial filters, readouts) on the labelled data of\n"
     "the graph's own sources, which must end by themselves (a recording, or a synthetic\n"
@@ -24,6 +25,10 @@ static const char help[] =
     "                 Block f is tested after fitting on blocks before it only.\n"
     "  --duration S   use the first S seconds of data\n"
     "  --block N      frames per source request (results do not depend on it)\n"
+    "  --set STAGE.PARAM=VALUE        change a parameter of the graph (written into FITTED)\n"
+    "  --calibrate STAGE.PARAM=VALUE  change a parameter only while fitting, e.g. point\n"
+    "                 a synthetic source at a calibration session (--calibrate eeg.trials=40\n"
+    "                 --calibrate eeg.seed=11); FITTED keeps the graph's own value\n"
     "  --shuffle SEED permute the classes over the trials before fitting: a check that the\n"
     "                 accuracy falls to chance; the fitted graph is marked and not for use\n"
     "  --quiet        no progress or summary on stderr\n"
@@ -35,6 +40,7 @@ typedef struct fit_args {
     int shuffle;
     double duration;
     int quiet;
+    cli_sets sets, calibrate;
 } fit_args;
 
 static int parse_args(int argc, char **argv, fit_args *a)
@@ -80,6 +86,10 @@ static int parse_args(int argc, char **argv, fit_args *a)
             a->shuffle = 1;
         } else if (!strcmp(arg, "--quiet")) {
             a->quiet = 1;
+        } else if (!strcmp(arg, "--set") || !strcmp(arg, "--calibrate")) {
+            if (cli_add_set(arg[2] == 's' ? &a->sets : &a->calibrate, next))
+                return -1;
+            i++;
         } else if (arg[0] == '-') {
             fprintf(stderr, "weft fit: unknown option '%s'\n\n%s", arg, help);
             return -1;
@@ -123,7 +133,7 @@ static size_t describe_readout(const pipeline *pl, const fit_readout_summary *rs
 
 static char *make_header(const fit_args *a, const pipeline *pl, const fit_summary *s)
 {
-    size_t size = 1024 + (size_t)s->n_readouts * 512;
+    size_t size = 1024 + (size_t)s->n_readouts * 512 + (size_t)a->calibrate.n * 160;
     char *h = malloc(size);
     if (!h)
         return NULL;
@@ -139,6 +149,10 @@ static char *make_header(const fit_args *a, const pipeline *pl, const fit_summar
         "(FNV-1a over every source's samples and marker labels; it tells data apart, it is\n"
         "not cryptographic).\n",
         a->graph, when, s->data_seconds, s->n_markers, (unsigned long long)s->data_hash);
+    for (unsigned i = 0; i < a->calibrate.n && len < size; i++)
+        len += (size_t)snprintf(h + len, size - len, "%s%.120s%s",
+                                i ? ", " : "Fitted with --calibrate ", a->calibrate.items[i],
+                                i + 1 == a->calibrate.n ? " (not written below).\n" : "");
     if (a->shuffle && len < size)
         len += (size_t)snprintf(h + len, size - len,
                                 "CLASSES SHUFFLED over the trials (--shuffle %lu): a chance-level "
@@ -160,7 +174,7 @@ static int check_written(const char *path, diag *d)
 {
     graph g;
     pipeline pl;
-    pipeline_options opt = { 0 };
+    pipeline_options opt = { .idle_sinks = 1 }; /* a sink would create its files */
     if (graph_load(&g, path, NULL, d))
         return -1;
     int rc = pipeline_open(&pl, &g, &opt, d);
@@ -177,12 +191,18 @@ int cli_fit(int argc, char **argv)
     if (rc)
         return rc > 0 ? EXIT_OK : EXIT_USAGE;
     diag d = { 0 };
-    graph g;
+    graph g, written;
     pipeline pl;
-    pipeline_options opt = { .block = (uint32_t)a.block, .for_fit = 1 };
-    if (graph_load(&g, a.graph, NULL, &d) || pipeline_open(&pl, &g, &opt, &d)) {
+    /* Sinks never run while fitting; idle, they open no files. */
+    pipeline_options opt = { .block = (uint32_t)a.block, .for_fit = 1, .idle_sinks = 1 };
+    /* `written` is the graph as FITTED will say it: without the --calibrate changes. */
+    memset(&written, 0, sizeof written);
+    if (graph_load(&g, a.graph, NULL, &d) || cli_apply_sets(&g, &a.sets, &d) ||
+        graph_load(&written, a.graph, NULL, &d) || cli_apply_sets(&written, &a.sets, &d) ||
+        cli_apply_sets(&g, &a.calibrate, &d) || pipeline_open(&pl, &g, &opt, &d)) {
         fprintf(stderr, "weft: %s\n", d.msg);
         graph_free(&g);
+        graph_free(&written);
         return EXIT_INVALID;
     }
     fit_options fo = { .folds = (unsigned)a.folds, .duration = a.duration,
@@ -193,6 +213,8 @@ int cli_fit(int argc, char **argv)
     char *header = rc ? NULL : make_header(&a, &pl, &sum);
     if (rc == 0 && !header)
         rc = diag_set(&d, "out of memory");
+    for (unsigned i = 0; rc == 0 && a.calibrate.n && i < g.n_stages; i++)
+        g.stages[i].params = written.stages[i].params; /* both loads have the same stages */
     if (rc == 0)
         rc = graph_write(&pl, header, a.out, &d);
     diag reopen = { 0 };
@@ -213,6 +235,7 @@ int cli_fit(int argc, char **argv)
     free(header);
     fit_summary_free(&sum);
     pipeline_close(&pl);
+    graph_free(&written);
     graph_free(&g);
     return rc ? EXIT_FAILED : EXIT_OK;
 }

@@ -164,7 +164,7 @@ int fit_pass_run(fit_pass *fp, unsigned target, diag *d)
     int rc = loop_run(pl, &lo, &hooks, &st, d);
     loop_stats_free(&st);
     for (unsigned i = 0; i < pl->n; i++)
-        pl->nodes[i].skip = 0;
+        pl->nodes[i].skip = !pl->nodes[i].initialised; /* idle sinks stay out */
     if (rc)
         return -1;
     if (fp->failed_alloc)

@@ -320,8 +320,13 @@ static int open_node(pipeline *pl, unsigned i, diag *d)
     if (open_plugin(n, d) || check_shape(n, d) || link_inputs(n, d))
         return -1;
     if (param_set_resolve(&n->params, n->api->params, n->def->params, &pl->g->doc,
-                          n->def->name, d) ||
-        check_fitted(n, d) || node_init(n, d) || node_alloc_output(n, d) ||
+                          n->def->name, d))
+        return -1;
+    if (pl->opt.idle_sinks && n->role == WEFT_ROLE_SINK) {
+        n->skip = 1;
+        return 0;
+    }
+    if (check_fitted(n, d) || node_init(n, d) || node_alloc_output(n, d) ||
         alloc_history(n, d))
         return -1;
     return 0;

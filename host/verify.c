@@ -40,6 +40,7 @@ typedef struct checker {
     char missing[DIAG_MAX];         /* why init cannot run: a required parameter is missing */
     char params_text[PARAMS_TEXT_MAX];  /* every parameter written out, for variations */
     param_set resolved;
+    int chosen_params;              /* the checker changed a parameter to get init to work */
     check_result res[R_COUNT];
     char *label_block;              /* "ch1", "ch2" ... for the layouts the checker makes */
     const char **labels;
@@ -61,15 +62,27 @@ static const char *role_text(uint32_t role)
     return role_name(role);
 }
 
+/* Scalp positions of the 10-10 system, sensorimotor ones first, as a montage would have
+ * them (stages that look channels up by name need real names); then "ch17", "ch18" ... */
+static const char *const scalp_names[] = {
+    "C3", "C4", "Cz", "FC3", "FC4", "CP3", "CP4", "Pz", "FCz", "CPz", "C1", "C2", "C5", "C6",
+    "FC1", "FC2",
+};
+
 static int make_labels(checker *c, uint32_t max_channels)
 {
-    c->label_block = malloc((size_t)max_channels * 12);
+    const uint32_t n_scalp = sizeof scalp_names / sizeof scalp_names[0];
+    c->label_block = malloc((size_t)max_channels * 16);
     c->labels = malloc((size_t)max_channels * sizeof *c->labels);
     if (!c->label_block || !c->labels)
         return -1;
     for (uint32_t i = 0; i < max_channels; i++) {
-        snprintf(c->label_block + (size_t)i * 12, 12, "ch%u", (unsigned)(i + 1));
-        c->labels[i] = c->label_block + (size_t)i * 12;
+        char *label = c->label_block + (size_t)i * 16;
+        if (i < n_scalp)
+            snprintf(label, 16, "%s", scalp_names[i]);
+        else
+            snprintf(label, 16, "ch%u", (unsigned)(i + 1));
+        c->labels[i] = label;
     }
     return 0;
 }
@@ -877,7 +890,7 @@ static int print_report(const checker *c, FILE *out)
     fprintf(out, "plugin: `%s`  \nhost: stage ABI %d.%d%s; inputs: %s; parameters: %s\n\n",
             c->file, WEFT_ABI_MAJOR, WEFT_ABI_MINOR,
             alloc_watch_available() ? "" : " (sanitizer build)", in,
-            c->opt.params ? c->opt.params : "defaults");
+            c->opt.params ? c->opt.params : c->chosen_params ? c->params_text : "defaults");
     fprintf(out, "| check | result | detail |\n|---|---|---|\n");
     for (int i = 0; i < R_COUNT; i++) {
         const check_result *r = &c->res[i];
@@ -929,6 +942,82 @@ static void streaming_checks(checker *c)
     run_child_check(c, R_DESTROY, check_destroy, !alloc_watch_available());
 }
 
+/* Variations of the parameters start from the ones now in use. */
+static void reresolve(checker *c)
+{
+    ydoc doc;
+    diag d = { 0 };
+    param_set ps;
+    if (ydoc_load(&doc, "params", c->params_text, &d) == 0 &&
+        param_set_resolve(&ps, c->api->params, doc.root, &doc, c->api->name, &d) == 0) {
+        param_set_free(&c->resolved);
+        c->resolved = ps;
+    }
+    ydoc_free(&doc);
+}
+
+static int try_init(checker *c, verify_setup *s, check_result *r)
+{
+    run_ctx x = { c, *s };
+    x.s.fit = 0;
+    verify_in_child(check_init, &x, c->timeout, 0, r);
+    return r->status == CHECK_PASS ? 0 : -1;
+}
+
+/* Some stages cannot start from their defaults on 4 channels (six channels for three CSP
+ * pairs, a weight matrix to give): try more channels, then -- unless the user chose the
+ * parameters -- each single-parameter variation, and say which configuration was used. */
+static void find_working_setup(checker *c)
+{
+    static const uint32_t more_channels[] = { 8, 16 };
+    check_result first, r;
+    if (!try_init(c, &c->setup, &first)) {
+        c->res[R_INIT] = first;
+        return;
+    }
+    int ladder = !c->opt.n_in && c->role != WEFT_ROLE_SOURCE &&
+                 c->setup.in[0].kind == WEFT_STREAM_SAMPLES;
+    attempt *list = calloc(MAX_ATTEMPTS, sizeof *list);
+    unsigned n = 0;
+    for (const weft_param_spec *s = c->api->params; list && !c->opt.params && s && s->name; s++)
+        if (!(s->flags & WEFT_PARAM_LEARNED))
+            n = param_attempts(c, s, list, n);
+    /* More channels with the defaults first, then one parameter changed at a time. */
+    for (unsigned i = 0; i <= n; i++) {
+        for (unsigned layout = 0; layout <= (ladder ? 2u : 0u); layout++) {
+            if (layout == 0 && i == 0)
+                continue; /* that was the first try */
+            verify_setup base = c->setup;
+            if (layout)
+                for (uint32_t k = 0; k < base.n_in; k++)
+                    base.in[k].channels = more_channels[layout - 1];
+            verify_setup s = base;
+            if (i > 0)
+                s.params = list[i - 1].params;
+            if (try_init(c, &s, &r))
+                continue;
+            char text[CHECK_DETAIL_MAX];
+            snprintf(text, sizeof text, "%.300s, with %.100s: the defaults on the default "
+                     "layout were refused", r.detail, i ? list[i - 1].what : "the defaults");
+            check_set(&c->res[R_INIT], CHECK_PASS, "%s", text);
+            c->setup = s;
+            if (i > 0) {
+                snprintf(c->params_text, sizeof c->params_text, "%s", list[i - 1].params);
+                c->setup.params = c->params_text;
+                c->chosen_params = 1;
+                reresolve(c);
+            }
+            free(list);
+            return;
+        }
+    }
+    free(list);
+    check_set(&c->res[R_INIT], CHECK_FAIL, "%s (also tried: %s; give --params and --inputs "
+              "that it accepts)", first.detail,
+              ladder ? "8 and 16 channels, and one parameter changed at a time"
+                     : "one parameter changed at a time");
+}
+
 /* Returns -1 only when the checker cannot run (bad --params); failed checks are results. */
 static int run_checks(checker *c)
 {
@@ -962,9 +1051,7 @@ static int run_checks(checker *c)
         return 0;
     }
     c->setup.params = c->params_text;
-    run_ctx x = { c, c->setup };
-    x.s.fit = 0;
-    verify_in_child(check_init, &x, c->timeout, 0, &c->res[R_INIT]);
+    find_working_setup(c);
     if (c->res[R_INIT].status == CHECK_FAIL) {
         skip_rest(c, R_FIT, "init failed");
         return 0;

@@ -20,7 +20,7 @@
 #define CSP_MIN_RCOND 1e-10
 
 static const weft_param_spec params[] = {
-    { "pairs", WEFT_PARAM_INTEGER, 0, "3", 1, 64, "", NULL,
+    { "pairs", WEFT_PARAM_INTEGER, 0, "2", 1, 64, "", NULL,
       "filters from each end of the spectrum: 2 x pairs output channels" },
     { "shrinkage", WEFT_PARAM_NUMBER, 0, "0", 0, 1, "", NULL,
       "class covariances (1 - a) C + a tr(C)/n I before the eigenproblem; raise it if fit "

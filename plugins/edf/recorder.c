@@ -262,10 +262,14 @@ static int make_labels(recorder *r, const weft_layout *in)
                 if (!cut++)
                     snprintf(first_cut, sizeof first_cut, "'%.48s' -> '%.16s'", full,
                              r->labels[s]);
-                for (uint32_t j = 0; j < s; j++)
-                    if (!strcmp(r->labels[j], r->labels[s]))
-                        snprintf(r->labels[s], sizeof r->labels[s], "%s.%s", r->stage[k],
-                                 number);
+                for (uint32_t j = 0; j < s; j++) {
+                    if (strcmp(r->labels[j], r->labels[s]) != 0)
+                        continue;
+                    /* EDF labels hold 16 characters: keep the first 16 of this one */
+                    char numbered[40];
+                    snprintf(numbered, sizeof numbered, "%.13s.%.15s", r->stage[k], number);
+                    snprintf(r->labels[s], sizeof r->labels[s], "%.16s", numbered);
+                }
             }
             r->label_ptrs[s] = r->labels[s];
         }

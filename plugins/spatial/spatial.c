@@ -1,10 +1,10 @@
 /* spatial: a fixed spatial filter -- every output channel a weighted sum of the input channels
  * at the same instant. Three ways to give the weights:
- *   matrix     `weights` (C_out x C_in) as written;
- *   car        common average reference: each channel minus the mean of all channels;
+ *   car        (the default) common average reference: each channel minus the mean of all;
  *   laplacian  small surface Laplacian: each channel minus the mean of its nearest neighbours
  *              (Hjorth 1975, "An on-line transformation of EEG scalp potentials into
- *              orthogonal source derivations", EEG Clin. Neurophysiol. 39:526-530).
+ *              orthogonal source derivations", EEG Clin. Neurophysiol. 39:526-530);
+ *   matrix     `weights` (C_out x C_in) as written.
  * Laplacian neighbours are the adjacent positions on the 10-10 naming grid (see
  * montage_grid.c), or given explicitly with `neighbours`. */
 #include <math.h>
@@ -20,9 +20,9 @@
 #define MAX_NEIGHBOURS 16
 
 static const weft_param_spec params[] = {
-    { "mode", WEFT_PARAM_CHOICE, 0, "matrix", WEFT_NO_RANGE, "", "matrix|car|laplacian",
-      "matrix: the given weights; car: common average reference; laplacian: each channel "
-      "minus the mean of its neighbours" },
+    { "mode", WEFT_PARAM_CHOICE, 0, "car", WEFT_NO_RANGE, "", "car|laplacian|matrix",
+      "car: common average reference; laplacian: each channel minus the mean of its "
+      "neighbours; matrix: the given weights" },
     { "weights", WEFT_PARAM_MATRIX, 0, "[]", WEFT_NO_RANGE, "", NULL,
       "mode matrix: one row per output channel, one column per input channel" },
     { "labels", WEFT_PARAM_STRINGS, 0, "[]", WEFT_NO_RANGE, "", NULL,
@@ -209,7 +209,11 @@ static int init(const weft_host *host, const weft_params *p, const weft_layout *
     }
     const char *mode = weft_param_text(p, "mode");
     int rc;
-    if (!strcmp(mode, "car"))
+    if (strcmp(mode, "matrix") && weft_param_get(p, "weights")->rows) {
+        host->param_error(host, "weights", "weights is only used with mode: matrix (mode is "
+                          "%s)", mode);
+        rc = WEFT_EINVAL;
+    } else if (!strcmp(mode, "car"))
         rc = common_average(s, in);
     else if (!strcmp(mode, "laplacian"))
         rc = laplacian(s, host, weft_param_get(p, "neighbours"), in);

@@ -102,6 +102,34 @@ sys.exit(not (len(w) == 2 and all(len(r) == 6 for r in w)))"
 read acc n < <("$PYTHON" "$helper" accuracy "$tmp/hybrid.jsonl")
 check "hybrid fresh-session accuracy $acc over $n cues > 0.9" above "$acc" 0.9
 
+# Fitting on a recording: the calibration session recorded to BDF+ (with its cues as
+# annotations) and replayed by the edf source gives the same trials and accuracy.
+cat > "$tmp/record.yaml" <<G
+weft: 1
+stages:
+  eeg: { plugin: synthetic, params: { channels: 8, rate: 250, seed: 31, subject: 5, trials: 30 } }
+  emg: { plugin: synthetic, params: { signal: emg, channels: 2, rate: 1000, seed: 31, subject: 5, trials: 30, markers: false } }
+  rec: { plugin: recorder, input: [eeg, emg], params: { path: $tmp/calib.bdf } }
+G
+"$WEFT" run "$tmp/record.yaml" --quiet 2>/dev/null
+check "the calibration session is recorded" test -s "$tmp/calib.bdf"
+sed -e "s|eeg: { plugin: synthetic.*|eeg: { plugin: edf, params: { path: $tmp/calib.bdf, stream: eeg } }|" \
+    -e "s|emg: { plugin: synthetic.*|emg: { plugin: edf, params: { path: $tmp/calib.bdf, stream: emg, markers: false } }|" \
+    "$tmp/hybrid.yaml" > "$tmp/from-recording.yaml"
+"$WEFT" fit "$tmp/from-recording.yaml" -o "$tmp/from-recording-fitted.yaml" 2>"$tmp/err"
+check "fitting on the recording exits 0" test $? -eq 0
+check "... finds the recorded cues" grep -q "trials rest 15, grip 15" "$tmp/from-recording-fitted.yaml"
+cv="$("$PYTHON" "$helper" cv "$tmp/from-recording-fitted.yaml")"
+check "... with cross-validated accuracy $cv > 0.9" above "$cv" 0.9
+
+# Sinks never run while fitting, and are not even opened: a recorder in the graph creates no
+# file (and so the fitted graph, opened once to check it, does not trip over one).
+cp "$tmp/hybrid.yaml" "$tmp/with-sink.yaml"
+echo "  rec: { plugin: recorder, input: [eeg, emg], params: { path: $tmp/never.bdf } }" >> "$tmp/with-sink.yaml"
+"$WEFT" fit "$tmp/with-sink.yaml" -o "$tmp/with-sink-fitted.yaml" --quiet
+check "a graph with a recorder fits" test $? -eq 0
+check "... and fitting recorded nothing" test ! -e "$tmp/never.bdf"
+
 # Errors a user can act on.
 sed 's/trials: 40, //' "$tmp/eeg.yaml" > "$tmp/endless.yaml"
 "$WEFT" fit "$tmp/endless.yaml" -o "$tmp/x.yaml" 2>"$tmp/err"; rc=$?
@@ -109,6 +137,23 @@ check "an endless source is refused (exit 1)" test $rc -eq 1
 check "... saying how to bound it" grep -q "streams without end.*trials: N.*--duration" "$tmp/err"
 "$WEFT" fit "$tmp/endless.yaml" -o "$tmp/x.yaml" --duration 120 --quiet
 check "--duration bounds an endless source" test $? -eq 0
+
+# One graph, fitted on a calibration variant of itself: the fitted file keeps its own values.
+"$WEFT" fit "$tmp/endless.yaml" -o "$tmp/cal.yaml" --quiet --calibrate eeg.trials=40 \
+    --calibrate eeg.seed=21
+check "--calibrate makes an endless graph fittable" test $? -eq 0
+check "... the fitted graph keeps its own (endless) source" \
+    "$PYTHON" -c "import yaml, sys; p = yaml.safe_load(open('$tmp/cal.yaml'))['stages']['eeg']['params']; sys.exit('trials' in p)"
+check "... and its header names the calibration values" \
+    grep -q "^# Fitted with --calibrate eeg.trials=40, eeg.seed=21" "$tmp/cal.yaml"
+check "... whose learned values equal a fit of the bounded graph" cmp -s \
+    <("$PYTHON" -c "import yaml; print(yaml.safe_load(open('$tmp/cal.yaml'))['stages']['intent']['params'])") \
+    <("$PYTHON" -c "import yaml; print(yaml.safe_load(open('$tmp/eeg-fitted.yaml'))['stages']['intent']['params'])")
+"$WEFT" fit "$tmp/endless.yaml" -o "$tmp/x.yaml" --calibrate egg.trials=40 2>"$tmp/err"
+check "--calibrate on a missing stage is a usage error naming it" grep -q "no stage 'egg'" "$tmp/err"
+"$WEFT" fit "$tmp/endless.yaml" -o "$tmp/x.yaml" --calibrate eeg.trials 2>"$tmp/err"; rc=$?
+check "--calibrate without a value fails, saying how to write it" \
+    grep -q "write STAGE.PARAM=VALUE" "$tmp/err"
 
 sed 's/grip: \[grip\] }/grip: [squeeze] }/' "$tmp/eeg.yaml" > "$tmp/nolabel.yaml"
 "$WEFT" fit "$tmp/nolabel.yaml" -o "$tmp/x.yaml" 2>"$tmp/err"; rc=$?

@@ -70,6 +70,12 @@ for so in "$WEFT_PLUGINS"/*.so; do
 done
 [ "$n_samples" -gt 0 ] || fail "no sample plugins found in $WEFT_PLUGINS"
 
+# Sample plugins with required parameters skip most checks above; run those known here with
+# values, when they are built.
+if [ -e "$WEFT_PLUGINS/logvar_lda.so" ]; then
+    expect_pass sample_logvar_lda_fitted "$WEFT_PLUGINS/logvar_lda.so" --params '{ classes: [rest, grip] }'
+fi
+
 # A plugin is also found by name on the search path.
 expect_pass by_name synthetic
 
