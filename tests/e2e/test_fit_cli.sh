@@ -142,6 +142,13 @@ echo "  rec: { plugin: recorder, input: [eeg, emg], params: { path: $tmp/never.b
 check "a graph with a recorder fits" test $? -eq 0
 check "... and fitting recorded nothing" test ! -e "$tmp/never.bdf"
 
+# The shipped calibration graph fits and decodes a fresh session of the same subject.
+"$WEFT" fit "$WEFT_SOURCE_DIR/configs/grip-fit.yaml" -o "$tmp/grip-fitted.yaml" --quiet
+check "configs/grip-fit.yaml fits" test $? -eq 0
+"$WEFT" run "$tmp/grip-fitted.yaml" --set eeg.seed=12 --set emg.seed=12 --quiet > "$tmp/grip.jsonl"
+read acc n < <("$PYTHON" "$helper" accuracy "$tmp/grip.jsonl")
+check "... and decodes a fresh session: accuracy $acc over $n cues > 0.9" above "$acc" 0.9
+
 # Errors a user can act on.
 sed 's/trials: 40, //' "$tmp/eeg.yaml" > "$tmp/endless.yaml"
 "$WEFT" fit "$tmp/endless.yaml" -o "$tmp/x.yaml" 2>"$tmp/err"; rc=$?
