@@ -7,10 +7,12 @@
 
 #include "cli.h"
 #include "fit.h"
+#include "graph_recording.h"
 #include "graph_write.h"
 
 static const char help[] =
-    "usage: weft fit GRAPH -o FITTED [--folds K] [--duration SECONDS] [--block FRAMES]\n"
+    "usage: weft fit GRAPH -o FITTED [--data RECORDING] [--folds K] [--duration SECONDS]\n"
+    "                [--block FRAMES]\n"
     "                [--shuffle SEED] [--set STAGE.PARAM=VALUE ...]\n"
     "                [--calibrate STAGE.PARAM=VALUE ...] [--quiet]\n"
     "\n"
@@ -21,6 +23,9 @@ static const char help[] =
     "are cut at the markers named in each readout's `fit: classes`. FITTED is GRAPH with the\n"
     "learned values filled in; `weft run FITTED` needs nothing else.\n"
     "  -o FITTED      where to write the fitted graph (required)\n"
+    "  --data FILE    fit on this EDF+/BDF+ recording: each source stage plays the file's\n"
+    "                 signals named after it (stage eeg: eeg.*), the first one its\n"
+    "                 annotations as markers; FITTED keeps the graph's own sources\n"
     "  --folds K      chronological blocks for the accuracy estimate (default 5; 1: none).\n"
     "                 Block f is tested after fitting on blocks before it only.\n"
     "  --duration S   use the first S seconds of data\n"
@@ -35,7 +40,7 @@ static const char help[] =
     "Exit 0 done, 1 fitting failed, 2 usage error, 3 the graph is not valid.\n";
 
 typedef struct fit_args {
-    const char *graph, *out;
+    const char *graph, *out, *data;
     unsigned long folds, block, shuffle_seed;
     int shuffle;
     double duration;
@@ -53,6 +58,12 @@ static int parse_args(int argc, char **argv, fit_args *a)
         if (!strcmp(arg, "--help") || !strcmp(arg, "-h")) {
             fputs(help, stdout);
             return 1;
+        } else if (!strcmp(arg, "--data")) {
+            if (!next) {
+                fprintf(stderr, "weft fit: --data needs a recording\n");
+                return -1;
+            }
+            a->data = argv[++i];
         } else if (!strcmp(arg, "-o") || !strcmp(arg, "--output")) {
             if (!next) {
                 fprintf(stderr, "weft fit: %s needs a file name\n", arg);
@@ -133,7 +144,7 @@ static size_t describe_readout(const pipeline *pl, const fit_readout_summary *rs
 
 static char *make_header(const fit_args *a, const pipeline *pl, const fit_summary *s)
 {
-    size_t size = 1024 + (size_t)s->n_readouts * 512 + (size_t)a->calibrate.n * 160;
+    size_t size = 1024 + (a->data ? strlen(a->data) : 0) + (size_t)s->n_readouts * 512 + (size_t)a->calibrate.n * 160;
     char *h = malloc(size);
     if (!h)
         return NULL;
@@ -145,10 +156,11 @@ static char *make_header(const fit_args *a, const pipeline *pl, const fit_summar
     size_t len = (size_t)snprintf(
         h, size,
         "Fitted by `weft fit` from %s at %s.\n"
-        "Data: %.3f s from the graph's own sources, %u markers; content hash fnv1a64:%016llx\n"
+        "Data: %.3f s from %s%s, %u markers; content hash fnv1a64:%016llx\n"
         "(FNV-1a over every source's samples and marker labels; it tells data apart, it is\n"
         "not cryptographic).\n",
-        a->graph, when, s->data_seconds, s->n_markers, (unsigned long long)s->data_hash);
+        a->graph, when, s->data_seconds, a->data ? "the recording " : "the graph's own sources",
+        a->data ? a->data : "", s->n_markers, (unsigned long long)s->data_hash);
     for (unsigned i = 0; i < a->calibrate.n && len < size; i++)
         len += (size_t)snprintf(h + len, size - len, "%s%.120s%s",
                                 i ? ", " : "Fitted with --calibrate ", a->calibrate.items[i],
@@ -195,11 +207,13 @@ int cli_fit(int argc, char **argv)
     pipeline pl;
     /* Sinks never run while fitting; idle, they open no files. */
     pipeline_options opt = { .block = (uint32_t)a.block, .for_fit = 1, .idle_sinks = 1 };
-    /* `written` is the graph as FITTED will say it: without the --calibrate changes. */
+    /* `written` is the graph as FITTED will say it: without the --calibrate changes and with
+     * its own sources, not the recording of --data. */
     memset(&written, 0, sizeof written);
     if (graph_load(&g, a.graph, NULL, &d) || cli_apply_sets(&g, &a.sets, &d) ||
         graph_load(&written, a.graph, NULL, &d) || cli_apply_sets(&written, &a.sets, &d) ||
-        cli_apply_sets(&g, &a.calibrate, &d) || pipeline_open(&pl, &g, &opt, &d)) {
+        cli_apply_sets(&g, &a.calibrate, &d) ||
+        (a.data && graph_use_recording(&g, a.data, &d)) || pipeline_open(&pl, &g, &opt, &d)) {
         fprintf(stderr, "weft: %s\n", d.msg);
         graph_free(&g);
         graph_free(&written);
@@ -213,10 +227,8 @@ int cli_fit(int argc, char **argv)
     char *header = rc ? NULL : make_header(&a, &pl, &sum);
     if (rc == 0 && !header)
         rc = diag_set(&d, "out of memory");
-    for (unsigned i = 0; rc == 0 && a.calibrate.n && i < g.n_stages; i++)
-        g.stages[i].params = written.stages[i].params; /* both loads have the same stages */
     if (rc == 0)
-        rc = graph_write(&pl, header, a.out, &d);
+        rc = graph_write(&written, &pl, header, a.out, &d);
     diag reopen = { 0 };
     if (rc == 0 && check_written(a.out, &reopen))
         rc = diag_set(&d, "the fitted graph %s does not open: %s", a.out, reopen.msg);

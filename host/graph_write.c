@@ -11,6 +11,7 @@
 
 typedef struct writer {
     FILE *f;
+    const graph *g;
     const pipeline *pl;
     char *graph_dir_abs;        /* realpath of the graph's folder */
     int moved;                  /* output in another folder than the graph */
@@ -129,14 +130,16 @@ static int put_learned(FILE *f, const weft_param *p)
 
 static int learned_and_given(const node *n, uint32_t i)
 {
-    return (n->api->params[i].flags & WEFT_PARAM_LEARNED) && n->params.items[i].given;
+    return n && (n->api->params[i].flags & WEFT_PARAM_LEARNED) && n->params.items[i].given;
 }
 
-static int put_params(writer *w, const node *n)
+/* The stage's parameters as written in g, then what its namesake in pl learned (n may be
+ * NULL: a stage the fitting pipeline did not have, such as a recorder left out of a replay). */
+static int put_params(writer *w, const graph_stage *s, const node *n)
 {
-    const ynode *given = n->def->params;
+    const ynode *given = s->params;
     int any = given && given->n;
-    for (uint32_t i = 0; i < n->params.count; i++)
+    for (uint32_t i = 0; n && i < n->params.count; i++)
         any |= learned_and_given(n, i);
     if (!any)
         return 0;
@@ -144,7 +147,7 @@ static int put_params(writer *w, const node *n)
     for (unsigned i = 0; given && i < given->n; i++) {
         const char *key = given->keys[i]->text;
         int relearned = 0;
-        for (uint32_t k = 0; k < n->params.count; k++)
+        for (uint32_t k = 0; n && k < n->params.count; k++)
             relearned |= learned_and_given(n, k) && !strcmp(n->params.items[k].name, key);
         if (relearned)
             continue;
@@ -154,7 +157,7 @@ static int put_params(writer *w, const node *n)
         put_node(w->f, given->items[i]);
         fputc('\n', w->f);
     }
-    for (uint32_t i = 0; i < n->params.count; i++)
+    for (uint32_t i = 0; n && i < n->params.count; i++)
         if (learned_and_given(n, i) && put_learned(w->f, &n->params.items[i]))
             return -1;
     return 0;
@@ -242,7 +245,7 @@ static int put_plugin(writer *w, const graph_stage *s)
 
 static int put_graph(writer *w, const char *header)
 {
-    const graph *g = w->pl->g;
+    const graph *g = w->g;
     for (const char *line = header; line && *line;) {
         const char *nl = strchr(line, '\n');
         size_t len = nl ? (size_t)(nl - line) : strlen(line);
@@ -262,7 +265,8 @@ static int put_graph(writer *w, const char *header)
         put_inputs(w, s);
         put_query(w, s);
         put_fit(w, s);
-        if (put_params(w, &w->pl->nodes[i]))
+        int k = graph_find(w->pl->g, s->name);
+        if (put_params(w, s, k >= 0 ? &w->pl->nodes[k] : NULL))
             return -1;
     }
     return 0;
@@ -278,9 +282,10 @@ static char *folder_of(const char *path)
     return abs;
 }
 
-int graph_write(const pipeline *pl, const char *header, const char *path, diag *d)
+int graph_write(const graph *g, const pipeline *pl, const char *header, const char *path,
+                diag *d)
 {
-    writer w = { .pl = pl, .graph_dir_abs = realpath(pl->g->dir, NULL) };
+    writer w = { .g = g, .pl = pl, .graph_dir_abs = realpath(g->dir, NULL) };
     char *out_dir = folder_of(path);
     if (!w.graph_dir_abs || !out_dir) {
         free(w.graph_dir_abs);

@@ -6,10 +6,13 @@
 
 #include "pipeline.h"
 
-/* Write pl's graph to `path` (through a temporary file, renamed when complete). `header` is
+/* Write graph g to `path` (through a temporary file, renamed when complete), each stage with
+ * the learned parameters of the stage of the same name in pl (pl may run another version of
+ * g: its sources replaced by a recording, parameters changed for calibration). `header` is
  * written first as comment lines (one '#' per line of it); may be NULL. A stage's `path:` that
  * is relative is made absolute when `path` is in another folder than the graph. Returns 0 or
  * -1 with d set. */
-int graph_write(const pipeline *pl, const char *header, const char *path, diag *d);
+int graph_write(const graph *g, const pipeline *pl, const char *header, const char *path,
+                diag *d);
 
 #endif

@@ -122,6 +122,18 @@ check "... finds the recorded cues" grep -q "trials rest 15, grip 15" "$tmp/from
 cv="$("$PYTHON" "$helper" cv "$tmp/from-recording-fitted.yaml")"
 check "... with cross-validated accuracy $cv > 0.9" above "$cv" 0.9
 
+# The same with --data: the graph's own sources are replaced by the recording while fitting,
+# and the fitted graph keeps them.
+"$WEFT" fit "$tmp/hybrid.yaml" --data "$tmp/calib.bdf" -o "$tmp/via-data.yaml" --quiet
+check "fit --data on the recording exits 0" test $? -eq 0
+check "... names the recording in the header" grep -q "^# Data: .* from the recording .*calib.bdf" "$tmp/via-data.yaml"
+check "... finds its cues" grep -q "trials rest 15, grip 15" "$tmp/via-data.yaml"
+check "... and writes the graph's own synthetic sources" \
+    "$PYTHON" -c "import yaml, sys; g = yaml.safe_load(open('$tmp/via-data.yaml')); sys.exit(g['stages']['eeg']['plugin'] != 'synthetic')"
+check "... learning what the edf-source graph learned" cmp -s \
+    <("$PYTHON" -c "import yaml; print(yaml.safe_load(open('$tmp/via-data.yaml'))['stages']['intent']['params'])") \
+    <("$PYTHON" -c "import yaml; print(yaml.safe_load(open('$tmp/from-recording-fitted.yaml'))['stages']['intent']['params'])")
+
 # Sinks never run while fitting, and are not even opened: a recorder in the graph creates no
 # file (and so the fitted graph, opened once to check it, does not trip over one).
 cp "$tmp/hybrid.yaml" "$tmp/with-sink.yaml"
@@ -129,6 +141,13 @@ echo "  rec: { plugin: recorder, input: [eeg, emg], params: { path: $tmp/never.b
 "$WEFT" fit "$tmp/with-sink.yaml" -o "$tmp/with-sink-fitted.yaml" --quiet
 check "a graph with a recorder fits" test $? -eq 0
 check "... and fitting recorded nothing" test ! -e "$tmp/never.bdf"
+
+# The shipped calibration graph fits and decodes a fresh session of the same subject.
+"$WEFT" fit "$WEFT_SOURCE_DIR/configs/grip-fit.yaml" -o "$tmp/grip-fitted.yaml" --quiet
+check "configs/grip-fit.yaml fits" test $? -eq 0
+"$WEFT" run "$tmp/grip-fitted.yaml" --set eeg.seed=12 --set emg.seed=12 --quiet > "$tmp/grip.jsonl"
+read acc n < <("$PYTHON" "$helper" accuracy "$tmp/grip.jsonl")
+check "... and decodes a fresh session: accuracy $acc over $n cues > 0.9" above "$acc" 0.9
 
 # Errors a user can act on.
 sed 's/trials: 40, //' "$tmp/eeg.yaml" > "$tmp/endless.yaml"
