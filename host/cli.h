@@ -21,12 +21,13 @@ int cli_fit(int argc, char **argv);
 /* --set STAGE.PARAM=VALUE, collected from the command line and applied after loading. */
 #define CLI_MAX_SETS 64
 typedef struct cli_sets {
+    const char *option[CLI_MAX_SETS];   /* "--set" or "--calibrate", for messages */
     const char *items[CLI_MAX_SETS];
     unsigned n;
 } cli_sets;
 
 /* Record one --set value; prints a usage error and returns -1 if there is none or too many. */
-int cli_add_set(cli_sets *s, const char *value);
+int cli_add_set(cli_sets *s, const char *option, const char *value);
 
 struct graph;
 struct diag;

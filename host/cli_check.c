@@ -9,7 +9,7 @@ static const char help[] =
     "usage: weft check GRAPH [--set STAGE.PARAM=VALUE ...]\n"
     "\n"
     "Loads the graph, opens every plugin, checks parameters and initialises each stage as a\n"
-    "run would (sources open their files), then prints each stage with its plugin file and\n"
+    "run would (sources open their files; sinks create no output), then prints each stage with its plugin file and\n"
     "version, its output (channels, rate), each readout window in samples and the query\n"
     "schedule. Exit 0 if the graph is valid, 3 if not (the message names file:line:column).\n";
 
@@ -107,7 +107,7 @@ int cli_check(int argc, char **argv)
             fputs(help, stdout);
             return EXIT_OK;
         } else if (!strcmp(argv[i], "--set")) {
-            if (cli_add_set(&sets, i + 1 < argc ? argv[++i] : NULL))
+            if (cli_add_set(&sets, "--set", i + 1 < argc ? argv[++i] : NULL))
                 return EXIT_USAGE;
         } else if (argv[i][0] == '-' || path) {
             fputs(help, stderr);
@@ -123,7 +123,7 @@ int cli_check(int argc, char **argv)
     diag d = { 0 };
     graph g;
     pipeline pl;
-    pipeline_options opt = { .for_fit = 1 };
+    pipeline_options opt = { .for_fit = 1, .check_only = 1 };
     if (graph_load(&g, path, NULL, &d) || cli_apply_sets(&g, &sets, &d) ||
         pipeline_open(&pl, &g, &opt, &d)) {
         fprintf(stderr, "weft: %s\n", d.msg);

@@ -98,7 +98,7 @@ static int parse_args(int argc, char **argv, fit_args *a)
         } else if (!strcmp(arg, "--quiet")) {
             a->quiet = 1;
         } else if (!strcmp(arg, "--set") || !strcmp(arg, "--calibrate")) {
-            if (cli_add_set(arg[2] == 's' ? &a->sets : &a->calibrate, next))
+            if (cli_add_set(arg[2] == 's' ? &a->sets : &a->calibrate, arg, next))
                 return -1;
             i++;
         } else if (arg[0] == '-') {

@@ -72,7 +72,7 @@ static int parse_args(int argc, char **argv, run_args *a)
             }
             a->session_log = argv[++i];
         } else if (!strcmp(arg, "--set")) {
-            if (cli_add_set(&a->sets, i + 1 < argc ? argv[++i] : NULL))
+            if (cli_add_set(&a->sets, "--set", i + 1 < argc ? argv[++i] : NULL))
                 return -1;
         } else if (!strcmp(arg, "--control")) {
             if (i + 1 >= argc) {

@@ -35,16 +35,17 @@ int cli_count(const char *opt, const char *text, unsigned long *out)
     return 0;
 }
 
-int cli_add_set(cli_sets *s, const char *value)
+int cli_add_set(cli_sets *s, const char *option, const char *value)
 {
     if (!value) {
-        fprintf(stderr, "weft: --set needs STAGE.PARAM=VALUE\n");
+        fprintf(stderr, "weft: %s needs STAGE.PARAM=VALUE\n", option);
         return -1;
     }
     if (s->n == CLI_MAX_SETS) {
-        fprintf(stderr, "weft: at most %d --set options\n", CLI_MAX_SETS);
+        fprintf(stderr, "weft: at most %d %s options\n", CLI_MAX_SETS, option);
         return -1;
     }
+    s->option[s->n] = option;
     s->items[s->n++] = value;
     return 0;
 }
@@ -52,7 +53,7 @@ int cli_add_set(cli_sets *s, const char *value)
 int cli_apply_sets(graph *g, const cli_sets *s, diag *d)
 {
     for (unsigned i = 0; i < s->n; i++)
-        if (graph_set_param(g, s->items[i], d))
+        if (graph_set_param(g, s->option[i], s->items[i], d))
             return -1;
     return 0;
 }

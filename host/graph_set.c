@@ -12,15 +12,15 @@ static ynode *stage_node(graph *g, const char *name)
     return ynode_get(stages, name);
 }
 
-int graph_set_param(graph *g, const char *assignment, diag *d)
+int graph_set_param(graph *g, const char *option, const char *assignment, diag *d)
 {
     const char *dot = strchr(assignment, '.'), *eq = strchr(assignment, '=');
     if (!dot || !eq || dot > eq || dot == assignment || eq == dot + 1)
-        return diag_set(d, "--set %s: write STAGE.PARAM=VALUE, e.g. eeg.seed=12", assignment);
+        return diag_set(d, "%s %s: write STAGE.PARAM=VALUE, e.g. eeg.seed=12", option, assignment);
     char stage[128], param[128];
     size_t ls = (size_t)(dot - assignment), lp = (size_t)(eq - dot - 1);
     if (ls >= sizeof stage || lp >= sizeof param)
-        return diag_set(d, "--set %s: stage or parameter name too long", assignment);
+        return diag_set(d, "%s %s: stage or parameter name too long", option, assignment);
     memcpy(stage, assignment, ls);
     stage[ls] = 0;
     memcpy(param, dot + 1, lp);
@@ -28,16 +28,16 @@ int graph_set_param(graph *g, const char *assignment, diag *d)
     int index = graph_find(g, stage);
     ynode *sn = stage_node(g, stage);
     if (index < 0 || !sn)
-        return diag_set(d, "--set %s: no stage '%s' in %s", assignment, stage, g->path);
+        return diag_set(d, "%s %s: no stage '%s' in %s", option, assignment, stage, g->path);
     ydoc value;
     char where[300];
-    snprintf(where, sizeof where, "--set %s.%s", stage, param);
+    snprintf(where, sizeof where, "%s %s.%s", option, stage, param);
     if (ydoc_load(&value, where, eq + 1, d))
         return -1;
     ynode *v = ydoc_take_root(&value);
     ydoc_free(&value);
     if (!v)
-        return diag_set(d, "--set %s: no value after '='", assignment);
+        return diag_set(d, "%s %s: no value after '='", option, assignment);
     ynode_unmark(v);
     ynode *params = ynode_get(sn, "params");
     if (!params) {
@@ -52,7 +52,7 @@ int graph_set_param(graph *g, const char *assignment, diag *d)
     }
     if (params->kind != YNODE_MAP) {
         ynode_free(v);
-        return diag_set(d, "--set %s: the stage's params are not a map", assignment);
+        return diag_set(d, "%s %s: the stage's params are not a map", option, assignment);
     }
     if (ynode_map_set(params, param, v)) {
         ynode_free(v);

@@ -6,8 +6,8 @@
 
 #include "graph.h"
 
-/* `assignment` is STAGE.PARAM=VALUE, VALUE written as in a graph file ("12", "[8, 30]").
+/* `assignment` is STAGE.PARAM=VALUE (given with `option`, named in messages), VALUE written as in a graph file ("12", "[8, 30]").
  * Returns 0, or -1 with a message naming the problem. */
-int graph_set_param(graph *g, const char *assignment, diag *d);
+int graph_set_param(graph *g, const char *option, const char *assignment, diag *d);
 
 #endif

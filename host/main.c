@@ -1,5 +1,6 @@
 /* weft: the command-line entry point, a thin dispatcher over the subcommands. */
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
 #include <weft/stage.h>
@@ -27,6 +28,9 @@ static const char usage[] =
 
 int main(int argc, char **argv)
 {
+    /* The run loop must not wait on a thread pool: OpenBLAS (loaded by spatial plugins) reads
+     * this when it loads. A value the user set deliberately is kept. */
+    setenv("OPENBLAS_NUM_THREADS", "1", 0);
     if (argc < 2) {
         fputs(usage, stderr);
         return EXIT_USAGE;

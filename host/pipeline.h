@@ -67,6 +67,7 @@ typedef struct node {
 typedef struct pipeline_options {
     uint32_t block;             /* frames per source request (0: 20 ms of stream) */
     int for_fit;                /* fittable stages may be unfitted */
+    int check_only;             /* init with WEFT_HOST_CHECK_ONLY: validate, open nothing */
     int idle_sinks;             /* sinks are checked but not initialised, so they open no
                                  * files; the loop must skip them (fit passes do) */
     double swap_warmup;         /* > 0: keep this many seconds of each filter's input, so a

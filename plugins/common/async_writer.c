@@ -139,11 +139,15 @@ int async_writer_put(async_writer *w, const char *bytes, size_t n)
 
 const char *async_writer_error(const async_writer *w)
 {
+    if (!w)
+        return NULL;
     return atomic_load(&((async_writer *)w)->failed) ? w->error : NULL;
 }
 
 uint64_t async_writer_dropped(const async_writer *w)
 {
+    if (!w)
+        return 0;
     return atomic_load(&((async_writer *)w)->dropped);
 }
 

@@ -17,7 +17,7 @@ async_writer *async_writer_open(const char *path, size_t capacity, char *why, si
  * line is dropped and counted) or the writer has failed (see async_writer_error). */
 int async_writer_put(async_writer *w, const char *bytes, size_t n);
 
-/* The writer's I/O error, or NULL. */
+/* The writer's I/O error, or NULL. Both accept a NULL writer (none was opened). */
 const char *async_writer_error(const async_writer *w);
 uint64_t async_writer_dropped(const async_writer *w);
 

@@ -53,6 +53,8 @@ stages:
   probe: { plugin: host_probe, input: amp, window: 0.5, query: { every: 0.5 } }
   out: { plugin: jsonl, input: probe, params: { path: "$tmp/fail.jsonl" } }
 G
+"$WEFT" check "$tmp/fail.yaml" >/dev/null; check "check passes the failing graph" test $? -eq 0
+check "check creates no sink output file" test ! -e "$tmp/fail.jsonl"
 "$WEFT" run "$tmp/fail.yaml" --block 7 2>"$tmp/err"; rc=$?
 check "runtime failure exits 1" test $rc -eq 1
 check "runtime failure names stage, sample and time" \
