@@ -17,16 +17,20 @@ def plugin(name):
     return os.path.join(PLUGINS, name + ".so")
 
 
-def run_stage(name, params, x, rate, block):
-    """Filter x (frames x channels, float32) with plugin `name`; returns (output, out rate)."""
+def run_stage(name, params, x, rate, block, log=None):
+    """Filter x (frames x channels, float32) with plugin `name`; returns (output, out rate).
+    The stage's log lines (stderr) are appended to the list `log` if one is given."""
     x = np.ascontiguousarray(x, dtype=np.float32)
     res = subprocess.run([TOOL, "run", plugin(name), params, str(x.shape[1]), repr(rate),
                           str(block)], input=x.tobytes(), capture_output=True, check=False)
     if res.returncode != 0:
         raise RuntimeError("filter_tool failed for %s %s: %s" % (name, params,
                                                                  res.stderr.decode()))
-    fields = res.stderr.decode().split()
-    out_rate, channels = float(fields[1]), int(fields[3])
+    layout = [l for l in res.stderr.decode().splitlines() if l.startswith("layout:")][0]
+    fields = layout.split()
+    out_rate, channels = float(fields[2]), int(fields[4])
+    if log is not None:
+        log.extend(l for l in res.stderr.decode().splitlines() if not l.startswith("layout:"))
     return np.frombuffer(res.stdout, dtype=np.float32).reshape(-1, channels), out_rate
 
 

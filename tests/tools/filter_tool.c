@@ -2,16 +2,21 @@
  *   filter_tool run PLUGIN PARAMS CHANNELS RATE BLOCK   < in.f32 > out.f32
  *       drive one filter plugin (a .so path) with PARAMS (YAML map) over interleaved float32
  *       from stdin, BLOCK frames per call, and write its float32 output to stdout; the output
- *       layout goes to stderr as "rate R channels C max_frames M".
+ *       layout goes to stderr as "layout: rate R channels C max_frames M".
  *   filter_tool butter KIND ORDER RATE F1 [F2]
  *       print the designed second-order sections, one per line: b0 b1 b2 1 a1 a2 (%.17g).
  *   filter_tool notch FREQ Q RATE
- *       print the notch section the same way. */
+ *       print the notch section the same way.
+ *   filter_tool fir KIND hamming|blackman|kaiser TAPS RATE BETA F1 [F2]
+ *       print the windowed-sinc taps, one per line (%.17g).
+ *   filter_tool kaiser RIPPLE WIDTH RATE
+ *       print Kaiser's taps and beta for that ripple (dB) and transition width (Hz). */
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
 #include "butter_design.h"
+#include "fir_design.h"
 #include "notch_design.h"
 #include "stage_driver.h"
 
@@ -19,7 +24,9 @@ static int usage(void)
 {
     fputs("usage: filter_tool run PLUGIN PARAMS CHANNELS RATE BLOCK < in.f32 > out.f32\n"
           "       filter_tool butter lowpass|highpass|bandpass|bandstop ORDER RATE F1 [F2]\n"
-          "       filter_tool notch FREQ Q RATE\n",
+          "       filter_tool notch FREQ Q RATE\n"
+          "       filter_tool fir KIND WINDOW TAPS RATE BETA F1 [F2]\n"
+          "       filter_tool kaiser RIPPLE WIDTH RATE\n",
           stderr);
     return 2;
 }
@@ -67,7 +74,7 @@ static int run(const char *plugin, const char *params, uint32_t channels, double
         return 1;
     }
     const weft_layout *out = stage_driver_out(&sd);
-    fprintf(stderr, "rate %.17g channels %u max_frames %u\n", out->rate, out->channels,
+    fprintf(stderr, "layout: rate %.17g channels %u max_frames %u\n", out->rate, out->channels,
             out->max_frames);
     float *buf = malloc((size_t)out->max_frames * out->channels * sizeof *buf);
     size_t frames = count / channels;
@@ -115,6 +122,33 @@ static int butter(int argc, char **argv)
     return 0;
 }
 
+static int fir(int argc, char **argv)
+{
+    const char *kinds[] = { "lowpass", "highpass", "bandpass", "bandstop" };
+    const char *windows[] = { "hamming", "blackman", "kaiser" };
+    int kind = -1, window = -1;
+    for (int i = 0; i < 4; i++)
+        if (!strcmp(argv[0], kinds[i]))
+            kind = i;
+    for (int i = 0; i < 3; i++)
+        if (!strcmp(argv[1], windows[i]))
+            window = i;
+    int taps = atoi(argv[2]);
+    if (kind < 0 || window < 0 || taps < 1 || argc < 6)
+        return usage();
+    double *h = malloc((size_t)taps * sizeof *h);
+    if (!h || fir_windowed_sinc((fir_kind)kind, atof(argv[5]), argc > 6 ? atof(argv[6]) : 0,
+                                atof(argv[3]), (fir_window)window, atof(argv[4]), taps, h)) {
+        fputs("filter_tool: fir_windowed_sinc refused the arguments\n", stderr);
+        free(h);
+        return 1;
+    }
+    for (int i = 0; i < taps; i++)
+        printf("%.17g\n", h[i]);
+    free(h);
+    return 0;
+}
+
 int main(int argc, char **argv)
 {
     if (argc >= 7 && !strcmp(argv[1], "run"))
@@ -125,6 +159,14 @@ int main(int argc, char **argv)
     if (argc == 5 && !strcmp(argv[1], "notch")) {
         sos_coef s = notch_design(atof(argv[2]), atof(argv[3]), atof(argv[4]));
         print_sections(&s, 1);
+        return 0;
+    }
+    if (argc >= 8 && !strcmp(argv[1], "fir"))
+        return fir(argc - 2, argv + 2);
+    if (argc == 5 && !strcmp(argv[1], "kaiser")) {
+        double a = atof(argv[2]);
+        printf("%.17g %.17g\n", fir_kaiser_taps(a, atof(argv[3]), atof(argv[4])),
+               fir_kaiser_beta(a));
         return 0;
     }
     return usage();

@@ -16,6 +16,19 @@ static const stage_case cases[] = {
     { "butterworth", "{ kind: highpass, order: 4, low: 0.5 }", 2, 2000 },
     { "butterworth", "{ kind: bandstop, order: 10, low: 45, high: 55 }", 8, 1000 },
     { "notch", "{ freq: 50, q: 30, harmonics: 3 }", 9, 500 },
+    { "fir", "{ kind: bandpass, low: 8, high: 30, taps: 63, engine: direct }", 13, 250 },
+    { "fir", "{ kind: bandpass, low: 8, high: 30, taps: 701, engine: fft }", 21, 250 },
+    { "fir", "{ coefficients: [0.25, -1, 2.5] }", 3, 250 },
+    { "envelope", "{ low: 20, high: 450 }", 6, 1000 },
+    { "envelope", "{ smooth: rms, window: 0.05 }", 4, 1000 },
+    { "envelope", "{ detector: square, cutoff: 8 }", 2, 2000 },
+    { "resample", "{ down: 4 }", 7, 1000 },
+    { "resample", "{ up: 3, down: 2 }", 5, 500 },
+    { "resample", "{ rate: 250 }", 17, 2000 },
+    { "reref", "{ reference: average }", 9, 250 },
+    { "reref", "{ reference: '4' }", 6, 250 },
+    { "detrend", "{ method: highpass, cutoff: 0.5 }", 5, 500 },
+    { "detrend", "{ method: mean, window: 0.5 }", 3, 500 },
 };
 
 static void expect_chunk_invariant(const stage_case *c)
