@@ -6,10 +6,10 @@
 #include "pipeline.h"
 
 static const char help[] =
-    "usage: weft check GRAPH\n"
+    "usage: weft check GRAPH [--set STAGE.PARAM=VALUE ...]\n"
     "\n"
     "Loads the graph, opens every plugin, checks parameters and initialises each stage as a\n"
-    "run would (sources open their files), then prints each stage with its plugin file and\n"
+    "run would (sources open their files; sinks create no output), then prints each stage with its plugin file and\n"
     "version, its output (channels, rate), each readout window in samples and the query\n"
     "schedule. Exit 0 if the graph is valid, 3 if not (the message names file:line:column).\n";
 
@@ -100,22 +100,38 @@ static void print_pipeline(const pipeline *pl)
 
 int cli_check(int argc, char **argv)
 {
-    if (argc != 2 || argv[1][0] == '-') {
-        int asked = argc == 2 && (!strcmp(argv[1], "--help") || !strcmp(argv[1], "-h"));
-        fputs(help, asked ? stdout : stderr);
-        return asked ? EXIT_OK : EXIT_USAGE;
+    const char *path = NULL;
+    cli_sets sets = { 0 };
+    for (int i = 1; i < argc; i++) {
+        if (!strcmp(argv[i], "--help") || !strcmp(argv[i], "-h")) {
+            fputs(help, stdout);
+            return EXIT_OK;
+        } else if (!strcmp(argv[i], "--set")) {
+            if (cli_add_set(&sets, "--set", i + 1 < argc ? argv[++i] : NULL))
+                return EXIT_USAGE;
+        } else if (argv[i][0] == '-' || path) {
+            fputs(help, stderr);
+            return EXIT_USAGE;
+        } else {
+            path = argv[i];
+        }
+    }
+    if (!path) {
+        fputs(help, stderr);
+        return EXIT_USAGE;
     }
     diag d = { 0 };
     graph g;
     pipeline pl;
-    pipeline_options opt = { .for_fit = 1 };
-    if (graph_load(&g, argv[1], NULL, &d) || pipeline_open(&pl, &g, &opt, &d)) {
+    pipeline_options opt = { .for_fit = 1, .check_only = 1 };
+    if (graph_load(&g, path, NULL, &d) || cli_apply_sets(&g, &sets, &d) ||
+        pipeline_open(&pl, &g, &opt, &d)) {
         fprintf(stderr, "weft: %s\n", d.msg);
         graph_free(&g);
         return EXIT_INVALID;
     }
     print_pipeline(&pl);
-    printf("\nok: %s is valid\n", argv[1]);
+    printf("\nok: %s is valid\n", path);
     pipeline_close(&pl);
     graph_free(&g);
     return EXIT_OK;

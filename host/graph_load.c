@@ -112,9 +112,9 @@ static int load_inputs(loader *l, graph_stage *s, const ynode *n, const ynode *w
         return diag_set(l->d, "out of memory");
     for (unsigned i = 0; i < count; i++) {
         const ynode *item = n->kind == YNODE_SEQ ? n->items[i] : n;
+        s->n_inputs++; /* counted first, so graph_free releases a half-loaded input */
         if (load_one_input(l, s, item, &s->inputs[i]))
             return -1;
-        s->n_inputs++;
     }
     double shared = 0;
     if (window && load_window(l, window, s->name, &shared))

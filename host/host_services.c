@@ -81,5 +81,6 @@ void host_services_bind(node *n)
         .log = host_log,
         .param_error = host_param_error,
         .watch_fd = host_watch_fd,
+        .flags = n->pl->opt.check_only ? WEFT_HOST_CHECK_ONLY : 0,
     };
 }

@@ -15,6 +15,7 @@ typedef struct run {
     loop_stats *st;
     diag *d;
     double t0;                  /* monotonic clock at start */
+    double last_service;        /* when between_rounds last ran */
 } run;
 
 static double mono_seconds(void)
@@ -35,7 +36,7 @@ static uint64_t frames_left(const run *r, const node *n)
 
 static int source_done(const run *r, const node *n)
 {
-    return n->ended || frames_left(r, n) == 0;
+    return n->skip || n->ended || frames_left(r, n) == 0;
 }
 
 static int runtime_fail(node *n, diag *d, uint64_t index, double rate)
@@ -60,7 +61,7 @@ static void publish_markers(run *r, node *src)
             r->hooks->on_marker(r->hooks->ctx, src, mk, t);
         for (unsigned i = 0; i < pl->n; i++) {
             node *n = &pl->nodes[i];
-            if (n->role == WEFT_ROLE_READOUT)
+            if (n->role == WEFT_ROLE_READOUT && !n->skip)
                 query_plan_marker(&n->plan, mk->label, t);
         }
     }
@@ -106,6 +107,8 @@ static int pull_source(run *r, node *n, uint32_t request)
 static int run_filter(run *r, node *n)
 {
     const weft_block *in = &n->in_blocks[0];
+    if (n->history.data) /* kept so a replacement can be warmed up (swap) */
+        ring_push(&n->history, in->data, in->frames);
     weft_block *b = &n->out_block;
     *b = (weft_block){
         .data = n->out_data,
@@ -158,6 +161,8 @@ static int propagate(run *r)
     pipeline *pl = r->pl;
     for (unsigned k = 0; k < pl->n; k++) {
         node *n = &pl->nodes[pl->order[k]];
+        if (n->skip)
+            continue;
         if (n->role == WEFT_ROLE_SOURCE) {
             if (n->out_block.frames && r->hooks && r->hooks->on_block)
                 r->hooks->on_block(r->hooks->ctx, n, &n->out_block);
@@ -193,7 +198,7 @@ static int deliver(run *r, node *readout, const weft_result *res)
     pipeline *pl = r->pl;
     for (unsigned i = 0; i < pl->n; i++) {
         node *n = &pl->nodes[i];
-        if (n->role != WEFT_ROLE_SINK || !n->api->deliver)
+        if (n->role != WEFT_ROLE_SINK || !n->api->deliver || n->skip)
             continue;
         for (unsigned k = 0; k < n->n_in; k++) {
             if (n->in_node[k] != readout->index)
@@ -263,7 +268,7 @@ static int run_queries(run *r)
 {
     for (unsigned k = 0; k < r->pl->n; k++) {
         node *n = &r->pl->nodes[r->pl->order[k]];
-        if (n->role == WEFT_ROLE_READOUT && run_due_queries(r, n))
+        if (n->role == WEFT_ROLE_READOUT && !n->skip && run_due_queries(r, n))
             return -1;
     }
     return 0;
@@ -279,6 +284,18 @@ static int round_for(run *r, node *src, uint32_t request)
     r->st->rounds++;
     latency_add(&r->st->round_us, (mono_seconds() - start) * 1e6);
     return 0;
+}
+
+/* Returns 1 if the hook asked to stop, -1 on failure. */
+static int service(run *r)
+{
+    if (!r->hooks || !r->hooks->between_rounds)
+        return 0;
+    double now = mono_seconds();
+    if (now - r->last_service < r->opt->service_every)
+        return 0;
+    r->last_service = now;
+    return r->hooks->between_rounds(r->hooks->ctx, r->d);
 }
 
 static uint32_t request_for(const run *r, const node *n, uint64_t want)
@@ -318,6 +335,9 @@ static int run_fast(run *r)
     for (;;) {
         if (r->opt->stop && *r->opt->stop)
             return 0;
+        int svc = service(r);
+        if (svc)
+            return svc < 0 ? -1 : 0;
         node *next = NULL;
         for (unsigned i = 0; i < pl->n; i++) {
             node *n = &pl->nodes[i];
@@ -344,6 +364,9 @@ static int run_paced(run *r)
     for (;;) {
         if (r->opt->stop && *r->opt->stop)
             return 0;
+        int svc = service(r);
+        if (svc)
+            return svc < 0 ? -1 : 0;
         double now = mono_seconds() - r->t0, next_due = 0.01;
         int active = 0;
         for (unsigned i = 0; i < pl->n; i++) {
@@ -376,7 +399,7 @@ int loop_run(pipeline *pl, const loop_options *opt, const loop_hooks *hooks, loo
     memset(st, 0, sizeof *st);
     if (latency_init(&st->round_us))
         return diag_set(d, "out of memory");
-    run r = { pl, opt, hooks, st, d, mono_seconds() };
+    run r = { pl, opt, hooks, st, d, mono_seconds(), 0 };
     int rc = opt->realtime ? run_paced(&r) : run_fast(&r);
     /* Queries that became due with the last blocks. */
     if (rc == 0)

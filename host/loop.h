@@ -17,12 +17,18 @@ typedef struct loop_hooks {
     void (*on_result)(void *ctx, const node *readout, const weft_result *r);
     /* A stage produced a block (sources and filters). */
     void (*on_block)(void *ctx, const node *n, const weft_block *b);
+    /* Between two rounds, at most every few milliseconds of wall time: the place to serve a
+     * control socket or swap a stage. Return 0 to go on, 1 to stop cleanly, -1 to fail
+     * (with the reason in d). */
+    int (*between_rounds)(void *ctx, diag *d);
 } loop_hooks;
 
 typedef struct loop_options {
     int realtime;                   /* pace sources to the wall clock */
     double duration;                /* seconds of stream time; 0: until every source ends */
     volatile sig_atomic_t *stop;    /* set by a signal handler to stop cleanly; may be NULL */
+    double service_every;           /* wall seconds between between_rounds calls (0: every
+                                     * round) */
 } loop_options;
 
 typedef struct loop_stats {

@@ -163,6 +163,9 @@ static int read_value(resolver *r, const weft_param_spec *s, const ynode *n, wef
 /* Defaults are written as graph text, so they go through the same parser and checks. */
 static int read_default(resolver *r, const weft_param_spec *s, weft_param *p)
 {
+    /* Text defaults are taken as written: "-" or "yes" must not turn into YAML structure. */
+    if (s->type == WEFT_PARAM_STRING)
+        return (p->text = strdup(s->default_text)) ? 0 : diag_set(r->d, "out of memory");
     ydoc doc;
     diag inner = { 0 };
     char name[256];
@@ -202,8 +205,10 @@ static int check_unknown(resolver *r, const weft_param_spec *specs, const ynode 
     return 0;
 }
 
-int param_set_resolve(param_set *ps, const weft_param_spec *specs, const ynode *given,
-                      const ydoc *doc, const char *stage, diag *d)
+static int copy_value(weft_param *dst, const weft_param *src);
+
+static int resolve(param_set *ps, const weft_param_spec *specs, const ynode *given,
+                   const ydoc *doc, const char *stage, const param_set *base, diag *d)
 {
     memset(ps, 0, sizeof *ps);
     resolver r = { doc, stage, d };
@@ -223,11 +228,18 @@ int param_set_resolve(param_set *ps, const weft_param_spec *specs, const ynode *
         p->type = s->type;
         ps->count++;
         const ynode *n = ynode_get(given, s->name);
+        const weft_param *old = base && i < base->count && base->items[i].given &&
+                                        strcmp(base->items[i].name, s->name) == 0
+                                    ? &base->items[i]
+                                    : NULL;
         if (n) {
             p->given = 1;
             ps->marks[i] = n->mark;
             if (read_value(&r, s, n, p))
                 return -1;
+        } else if (old) {
+            if (copy_value(p, old))
+                return diag_set(d, "out of memory");
         } else if (s->default_text) {
             if (read_default(&r, s, p))
                 return -1;
@@ -240,6 +252,48 @@ int param_set_resolve(param_set *ps, const weft_param_spec *specs, const ynode *
     }
     ps->view.items = ps->items;
     ps->view.count = ps->count;
+    return 0;
+}
+
+int param_set_resolve(param_set *ps, const weft_param_spec *specs, const ynode *given,
+                      const ydoc *doc, const char *stage, diag *d)
+{
+    return resolve(ps, specs, given, doc, stage, NULL, d);
+}
+
+int param_set_resolve_over(param_set *ps, const weft_param_spec *specs, const ynode *given,
+                           const ydoc *doc, const char *stage, const param_set *base, diag *d)
+{
+    return resolve(ps, specs, given, doc, stage, base, d);
+}
+
+static int copy_value(weft_param *dst, const weft_param *src)
+{
+    dst->given = src->given;
+    dst->number = src->number;
+    dst->rows = src->rows;
+    dst->cols = src->cols;
+    if (src->text && !(dst->text = strdup(src->text)))
+        return -1;
+    if (src->values) {
+        size_t n = (size_t)src->rows * src->cols;
+        double *v = malloc((n + 1) * sizeof *v);
+        if (!v)
+            return -1;
+        memcpy(v, src->values, n * sizeof *v);
+        dst->values = v;
+    }
+    if (src->strings) {
+        char **v = calloc(src->n_strings + 1, sizeof *v);
+        if (!v)
+            return -1;
+        dst->strings = (const char *const *)v;
+        for (uint32_t k = 0; k < src->n_strings; k++) {
+            if (!(v[k] = strdup(src->strings[k])))
+                return -1;
+            dst->n_strings = k + 1;
+        }
+    }
     return 0;
 }
 

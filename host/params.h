@@ -20,6 +20,11 @@ int param_set_resolve(param_set *ps, const weft_param_spec *specs, const ynode *
                       const ydoc *doc, const char *stage, diag *d);
 void param_set_free(param_set *ps);
 
+/* As param_set_resolve, but a parameter not in `given` keeps its value from `base` (the
+ * stage's current set) before falling back to the default: a swap changes only what it says. */
+int param_set_resolve_over(param_set *ps, const weft_param_spec *specs, const ynode *given,
+                           const ydoc *doc, const char *stage, const param_set *base, diag *d);
+
 /* Replace one value (fit's learned parameters). Type must match the declaration. */
 int param_set_number(param_set *ps, const char *name, double v);
 int param_set_numbers(param_set *ps, const char *name, const double *v, uint32_t rows,

@@ -171,6 +171,34 @@ static uint32_t source_block(const pipeline *pl, double rate)
     return frames < 1 ? 1 : (uint32_t)frames;
 }
 
+/* Keep the labels the stage stated in host memory. On a re-initialisation (fit, swap) the
+ * labels must be the same, since downstream stages hold the first ones. */
+static int keep_labels(node *n, diag *d)
+{
+    const weft_layout *o = &n->out;
+    if (!o->labels || o->channels == 0 || o->channels > MAX_CHANNELS)
+        return 0;
+    if (n->labels) {
+        for (uint32_t c = 0; c < o->channels; c++)
+            if (!o->labels[c] || strcmp(o->labels[c], n->labels[c]) != 0)
+                return diag_at(d, n->pl->g->path, n->def->mark,
+                               "stage '%s': output label %u changed from '%s' to '%s'; a "
+                               "replacement must keep the channel and class names",
+                               n->def->name, c + 1, n->labels[c],
+                               o->labels[c] ? o->labels[c] : "(none)");
+    } else {
+        n->labels = calloc(o->channels, sizeof *n->labels);
+        if (!n->labels)
+            return diag_set(d, "out of memory");
+        n->label_count = o->channels;
+        for (uint32_t c = 0; c < o->channels; c++)
+            if (!(n->labels[c] = strdup(o->labels[c] ? o->labels[c] : "")))
+                return diag_set(d, "out of memory");
+    }
+    n->out.labels = (const char *const *)n->labels;
+    return 0;
+}
+
 int node_init(node *n, diag *d)
 {
     pipeline *pl = n->pl;
@@ -191,7 +219,7 @@ int node_init(node *n, diag *d)
     }
     if (n->role == WEFT_ROLE_READOUT)
         n->out.rate = 0;
-    return check_layout(n, d);
+    return check_layout(n, d) || keep_labels(n, d) ? -1 : 0;
 }
 
 int node_alloc_output(node *n, diag *d)
@@ -256,6 +284,20 @@ static int alloc_readout(node *n, diag *d)
     return 0;
 }
 
+static int alloc_history(node *n, diag *d)
+{
+    if (n->role != WEFT_ROLE_FILTER || n->pl->opt.swap_warmup <= 0)
+        return 0;
+    const weft_layout *in = &n->in_layouts[0];
+    double frames = ceil(n->pl->opt.swap_warmup * in->rate);
+    if (frames < 1)
+        frames = 1;
+    if (frames > (double)(1u << 24) || ring_init(&n->history, (uint32_t)frames, in->channels))
+        return diag_set(d, "stage '%s': cannot keep %g s of input for swaps", n->def->name,
+                        n->pl->opt.swap_warmup);
+    return 0;
+}
+
 static int check_fitted(node *n, diag *d)
 {
     if (n->pl->opt.for_fit || !(n->api->roles & WEFT_ROLE_FITTABLE))
@@ -278,8 +320,14 @@ static int open_node(pipeline *pl, unsigned i, diag *d)
     if (open_plugin(n, d) || check_shape(n, d) || link_inputs(n, d))
         return -1;
     if (param_set_resolve(&n->params, n->api->params, n->def->params, &pl->g->doc,
-                          n->def->name, d) ||
-        check_fitted(n, d) || node_init(n, d) || node_alloc_output(n, d))
+                          n->def->name, d))
+        return -1;
+    if (pl->opt.idle_sinks && n->role == WEFT_ROLE_SINK) {
+        n->skip = 1;
+        return 0;
+    }
+    if (check_fitted(n, d) || node_init(n, d) || node_alloc_output(n, d) ||
+        alloc_history(n, d))
         return -1;
     return 0;
 }
@@ -320,6 +368,10 @@ void node_close(node *n)
     n->self = NULL;
     for (unsigned k = 0; n->rings && k < n->n_in; k++)
         ring_free(&n->rings[k]);
+    ring_free(&n->history);
+    for (uint32_t c = 0; n->labels && c < n->label_count; c++)
+        free(n->labels[c]);
+    free(n->labels);
     free(n->rings);
     free(n->win_frames);
     free(n->windows);
@@ -360,5 +412,32 @@ int pipeline_reinit(pipeline *pl, unsigned node_index, diag *d)
         return diag_set(d, "stage '%s': its output changed from %u channels at %g Hz to %u at "
                            "%g Hz when re-initialised", n->def->name, before.channels,
                         before.rate, n->out.channels, n->out.rate);
+    return 0;
+}
+
+int pipeline_rewind(pipeline *pl, diag *d)
+{
+    pl->n_watched = 0; /* sources register their descriptors again in init */
+    for (unsigned k = 0; k < pl->n; k++) {
+        node *n = &pl->nodes[pl->order[k]];
+        /* A skipped stage does not run until the next rewind, which re-initialises it; a
+         * skipped sink is not re-opened, so its output file is left alone. */
+        /* Upstream stages were re-initialised first (graph order): their label strings are
+         * new, so take their layouts again. */
+        for (unsigned i = 0; i < n->n_in; i++)
+            n->in_layouts[i] = pl->nodes[n->in_node[i]].out;
+        if (!n->skip && pipeline_reinit(pl, n->index, d))
+            return -1;
+        n->produced = 0;
+        n->ended = 0;
+        n->seq = 0;
+        n->out_block.frames = 0;
+        n->out_block.n_markers = 0;
+        for (unsigned i = 0; n->rings && i < n->n_in; i++)
+            n->rings[i].end = 0;
+        if (n->role == WEFT_ROLE_READOUT)
+            query_plan_init(&n->plan, n->plan.every, n->plan.after, n->plan.labels,
+                            n->plan.n_labels, n->plan.earliest);
+    }
     return 0;
 }

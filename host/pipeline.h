@@ -30,6 +30,8 @@ typedef struct node {
     param_set params;
     void *self;
     int initialised;
+    int skip;                   /* the loop leaves this stage out (fit passes: stages not yet
+                                 * fitted, what depends on them, sinks) */
     weft_host host;
     char error[NODE_ERROR_MAX]; /* what the stage reported with host->error() */
     const char *error_param;    /* ... and the parameter it named, if any */
@@ -41,12 +43,17 @@ typedef struct node {
     weft_block *in_blocks;      /* scratch: this round's view of each input */
 
     weft_layout out;            /* what the stage produces */
+    char **labels;              /* host copies of out.labels: downstream stages keep pointers
+                                 * to them, and they must outlive a re-initialised stage */
+    uint32_t label_count;
     float *out_data;            /* out.max_frames * out.channels */
     weft_marker *out_markers;
     char (*marker_text)[NODE_LABEL_MAX]; /* sources: labels copied out of the plugin */
     weft_block out_block;       /* this round's output; frames == 0 if none */
     uint64_t produced;          /* frames produced so far = next output sample index */
     int ended;
+
+    ring history;               /* filters, when swappable: recent input for warm-up */
 
     /* readouts */
     ring *rings;
@@ -60,6 +67,11 @@ typedef struct node {
 typedef struct pipeline_options {
     uint32_t block;             /* frames per source request (0: 20 ms of stream) */
     int for_fit;                /* fittable stages may be unfitted */
+    int check_only;             /* init with WEFT_HOST_CHECK_ONLY: validate, open nothing */
+    int idle_sinks;             /* sinks are checked but not initialised, so they open no
+                                 * files; the loop must skip them (fit passes do) */
+    double swap_warmup;         /* > 0: keep this many seconds of each filter's input, so a
+                                 * swapped-in filter can be warmed up on it */
 } pipeline_options;
 
 struct pipeline {
@@ -83,6 +95,12 @@ void pipeline_close(pipeline *pl);
 /* Re-initialise one stage with new parameter values (after fit). The layouts must not change
  * the stage's output channels or rate. */
 int pipeline_reinit(pipeline *pl, unsigned node_index, diag *d);
+
+/* Start every stream again from sample 0, as if just opened: each stage is re-initialised
+ * with its current parameters (so learned values written since take effect) and the loop's
+ * counters, rings and query plans are reset. Stages with `skip` set are not re-initialised
+ * (they do not run until a later rewind without skip). Used by `weft fit` between replay passes. */
+int pipeline_rewind(pipeline *pl, diag *d);
 
 /* The reason a stage gave, prefixed with its name and, when known, its place in the file. */
 int node_fail(node *n, diag *d, const char *when);

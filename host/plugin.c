@@ -1,26 +1,90 @@
 /* plugin: search path, dlopen and the ABI check. */
+#define _XOPEN_SOURCE 700 /* realpath */
 #include "plugin.h"
 
 #include <dlfcn.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <sys/stat.h>
 #include <unistd.h>
 
+#ifndef WEFT_BUILD_DIR
+#define WEFT_BUILD_DIR ""
+#endif
 #ifndef WEFT_PLUGIN_BUILD_DIR
 #define WEFT_PLUGIN_BUILD_DIR ""
 #endif
 #ifndef WEFT_PLUGIN_INSTALL_DIR
 #define WEFT_PLUGIN_INSTALL_DIR "/usr/local/lib/weft/plugins"
 #endif
+#ifndef WEFT_PLUGIN_INSTALL_REL
+#define WEFT_PLUGIN_INSTALL_REL "../lib/weft/plugins"
+#endif
+
+static int is_dir(const char *path)
+{
+    struct stat st;
+    return stat(path, &st) == 0 && S_ISDIR(st.st_mode);
+}
+
+static int same_dir(const char *a, const char *b)
+{
+    struct stat sa, sb;
+    return stat(a, &sa) == 0 && stat(b, &sb) == 0 && sa.st_dev == sb.st_dev &&
+           sa.st_ino == sb.st_ino;
+}
 
 static void add_dir(plugin_path *p, const char *dir, size_t len)
 {
     if (len == 0 || p->n >= sizeof p->dirs / sizeof p->dirs[0])
         return;
     char *copy = strndup(dir, len);
-    if (copy)
-        p->dirs[p->n++] = copy;
+    if (!copy)
+        return;
+    for (unsigned i = 0; i < p->n; i++)
+        if (!strcmp(p->dirs[i], copy) || same_dir(p->dirs[i], copy)) {
+            free(copy);
+            return;
+        }
+    p->dirs[p->n++] = copy;
+}
+
+/* The folder holding the running program, from /proc/self/exe (symlinks resolved), so an
+ * installed tree can be moved or unpacked anywhere and still find its own plugins. */
+static int exe_dir(char *buf, size_t size)
+{
+    ssize_t len = readlink("/proc/self/exe", buf, size - 1);
+    if (len <= 0 || (size_t)len >= size - 1)
+        return -1;
+    buf[len] = 0;
+    char *slash = strrchr(buf, '/');
+    if (!slash)
+        return -1;
+    *slash = 0;
+    return 0;
+}
+
+/* A program inside the build tree (the weft binary, a test) uses the build tree's plugins;
+ * an installed one uses <its folder>/WEFT_PLUGIN_INSTALL_REL, i.e. <prefix>/lib/weft/plugins. */
+static void add_program_dirs(plugin_path *p)
+{
+    char dir[4096], rel[4096 + 64];
+    if (exe_dir(dir, sizeof dir))
+        return;
+    snprintf(rel, sizeof rel, "%s/%s", dir, WEFT_PLUGIN_INSTALL_REL);
+    if (is_dir(rel)) {
+        char *resolved = realpath(rel, NULL);
+        add_dir(p, resolved ? resolved : rel, strlen(resolved ? resolved : rel));
+        free(resolved);
+    }
+    char build[4096];
+    size_t blen = strlen(WEFT_BUILD_DIR);
+    if (blen && realpath(WEFT_BUILD_DIR, build)) {
+        blen = strlen(build);
+        if (!strncmp(dir, build, blen) && (dir[blen] == '/' || dir[blen] == 0))
+            add_dir(p, WEFT_PLUGIN_BUILD_DIR, strlen(WEFT_PLUGIN_BUILD_DIR));
+    }
 }
 
 void plugin_path_init(plugin_path *p, const char *graph_dir)
@@ -35,8 +99,11 @@ void plugin_path_init(plugin_path *p, const char *graph_dir)
         add_dir(p, env, len);
         env = colon ? colon + 1 : NULL;
     }
-    add_dir(p, WEFT_PLUGIN_BUILD_DIR, strlen(WEFT_PLUGIN_BUILD_DIR));
-    add_dir(p, WEFT_PLUGIN_INSTALL_DIR, strlen(WEFT_PLUGIN_INSTALL_DIR));
+    add_program_dirs(p);
+    /* The configured install folder last: for a program run from elsewhere (a copy of the
+     * binary), and where /proc is not mounted. */
+    if (is_dir(WEFT_PLUGIN_INSTALL_DIR))
+        add_dir(p, WEFT_PLUGIN_INSTALL_DIR, strlen(WEFT_PLUGIN_INSTALL_DIR));
 }
 
 void plugin_path_free(plugin_path *p)

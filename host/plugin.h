@@ -14,7 +14,10 @@ typedef struct plugin {
 } plugin;
 
 /* The folders searched for NAME.so, in order: `graph_dir` (may be NULL), each entry of
- * WEFT_PLUGIN_PATH (':'-separated), the build tree's plugin folder, the install folder. */
+ * WEFT_PLUGIN_PATH (':'-separated), then the running program's own plugins -- found from
+ * /proc/self/exe, so an installed tree may be moved: <prefix>/bin/weft uses
+ * <prefix>/lib/weft/plugins, a program inside the build tree uses build/plugins -- and last
+ * the configured install folder, if it exists. */
 typedef struct plugin_path {
     char *dirs[64];
     unsigned n;

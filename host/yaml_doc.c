@@ -227,6 +227,47 @@ void ydoc_free(ydoc *doc)
     memset(doc, 0, sizeof *doc);
 }
 
+void ynode_free(ynode *n) { node_free(n); }
+
+ynode *ydoc_take_root(ydoc *doc)
+{
+    ynode *root = doc->root;
+    doc->root = NULL;
+    return root;
+}
+
+void ynode_unmark(ynode *n)
+{
+    n->mark = (src_mark){ 0, 0 };
+    for (unsigned i = 0; i < n->n; i++) {
+        ynode_unmark(n->items[i]);
+        if (n->keys)
+            ynode_unmark(n->keys[i]);
+    }
+}
+
+int ynode_map_set(ynode *map, const char *key, ynode *value)
+{
+    for (unsigned i = 0; i < map->n; i++)
+        if (strcmp(map->keys[i]->text, key) == 0) {
+            node_free(map->items[i]);
+            map->items[i] = value;
+            return 0;
+        }
+    ynode *k = calloc(1, sizeof *k);
+    if (!k || !(k->text = strdup(key))) {
+        free(k);
+        return -1;
+    }
+    k->kind = YNODE_SCALAR;
+    k->mark = value->mark;
+    if (append(map, k, value)) {
+        node_free(k);
+        return -1;
+    }
+    return 0;
+}
+
 ynode *ynode_get(const ynode *map, const char *key)
 {
     if (!map || map->kind != YNODE_MAP)

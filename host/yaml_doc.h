@@ -29,6 +29,15 @@ typedef struct ydoc {
 int ydoc_load(ydoc *doc, const char *path, const char *text, diag *d);
 void ydoc_free(ydoc *doc);
 
+/* Put `value` under `key` in a map node, replacing (and freeing) a value already there; the
+ * map takes ownership of value. Returns 0 or -1 (out of memory). */
+int ynode_map_set(ynode *map, const char *key, ynode *value);
+/* Take the root out of a document (the caller owns it now) / free a detached node. */
+ynode *ydoc_take_root(ydoc *doc);
+void ynode_free(ynode *n);
+/* Forget where a node came from (line 0): for values that were not read from the file. */
+void ynode_unmark(ynode *n);
+
 /* The value under `key` in a map node, or NULL. */
 ynode *ynode_get(const ynode *map, const char *key);
 const char *ynode_kind_name(ynode_kind kind);

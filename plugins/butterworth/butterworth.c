@@ -8,15 +8,18 @@
 #include "channel_labels.h"
 #include "sos.h"
 
+#define DEFAULT_LOW 8.0
+#define DEFAULT_HIGH 30.0
+
 static const weft_param_spec params[] = {
     { "kind", WEFT_PARAM_CHOICE, 0, "bandpass", WEFT_NO_RANGE, "",
       "lowpass|highpass|bandpass|bandstop",
       "which band passes: below high, above low, between low and high, or all but it" },
     { "order", WEFT_PARAM_INTEGER, 0, "4", 1, BUTTER_MAX_ORDER, "", NULL,
       "filter order; band-pass and band-stop have twice as many poles" },
-    { "low", WEFT_PARAM_NUMBER, 0, "0", 0, 1e6, "Hz", NULL,
+    { "low", WEFT_PARAM_NUMBER, 0, "8", 0, 1e6, "Hz", NULL,
       "lower band edge (-3 dB); the cutoff of a highpass" },
-    { "high", WEFT_PARAM_NUMBER, 0, "0", 0, 1e6, "Hz", NULL,
+    { "high", WEFT_PARAM_NUMBER, 0, "30", 0, 1e6, "Hz", NULL,
       "upper band edge (-3 dB); the cutoff of a lowpass" },
     { .name = NULL },
 };
@@ -48,33 +51,23 @@ static butter_kind kind_of(const char *text)
     return BUTTER_BANDPASS;
 }
 
-/* A kind's unused edge must be absent, before its used edges are looked at: "a lowpass has
- * no low edge" says more than "low must be below high". */
-static int check_unused_edge(const weft_host *host, const weft_params *p, const char *name,
-                             const char *kind, int used)
+/* A kind's unused edge is ignored; when it was written with a value of its own, say so (a
+ * graph written out in full, e.g. by a tool, carries the defaults and gets no notice). */
+static void note_unused_edge(const weft_host *host, const weft_params *p, const char *name,
+                             const char *kind, int used, double default_hz)
 {
-    if (used || !weft_param_given(p, name))
-        return WEFT_OK;
-    host->param_error(host, name, "a %s has no %s edge; give %s only", kind, name,
-                      !strcmp(name, "low") ? "high (its cutoff)" : "low (its cutoff)");
-    return WEFT_EINVAL;
+    if (!used && weft_param_given(p, name) && weft_param_number(p, name) != default_hz)
+        host->log(host, WEFT_LOG_WARN, "a %s has no %s edge; %s (%g Hz) is ignored", kind,
+                  name, name, weft_param_number(p, name));
 }
 
-/* A used edge must be given, above 0 and below half the rate. */
-static int check_edge(const weft_host *host, const weft_params *p, const char *name,
-                      const char *kind, int used, double rate)
+/* A used edge (given, or its default) must be above 0 and below half the rate. */
+static int check_edge(const weft_host *host, const weft_params *p, const char *name, int used,
+                      double rate)
 {
     double f = weft_param_number(p, name);
     if (!used)
         return WEFT_OK;
-    if (!weft_param_given(p, name)) {
-        if (strstr(kind, "band"))
-            host->param_error(host, name, "a %s needs low and high, its band edges in Hz, "
-                              "e.g. { low: 8, high: 30 }", kind);
-        else
-            host->param_error(host, name, "a %s needs %s, its cutoff in Hz", kind, name);
-        return WEFT_EINVAL;
-    }
     if (!(f > 0)) {
         host->param_error(host, name, "%s (%g Hz) must be above 0 Hz", name, f);
         return WEFT_EINVAL;
@@ -97,10 +90,9 @@ static int init(const weft_host *host, const weft_params *p, const weft_layout *
     double rate = in[0].rate, low = weft_param_number(p, "low"),
            high = weft_param_number(p, "high");
     int uses_low = kind != BUTTER_LOWPASS, uses_high = kind != BUTTER_HIGHPASS;
-    if (check_unused_edge(host, p, "low", kind_text, uses_low) ||
-        check_unused_edge(host, p, "high", kind_text, uses_high) ||
-        check_edge(host, p, "low", kind_text, uses_low, rate) ||
-        check_edge(host, p, "high", kind_text, uses_high, rate))
+    note_unused_edge(host, p, "low", kind_text, uses_low, DEFAULT_LOW);
+    note_unused_edge(host, p, "high", kind_text, uses_high, DEFAULT_HIGH);
+    if (check_edge(host, p, "low", uses_low, rate) || check_edge(host, p, "high", uses_high, rate))
         return WEFT_EINVAL;
     if (uses_low && uses_high && !(low < high)) {
         host->param_error(host, "low", "low (%g Hz) must be below high (%g Hz)", low, high);

@@ -11,6 +11,8 @@
 #include "fir_filter.h"
 
 #define MAX_TAPS (1 << 18)
+#define DEFAULT_LOW 8.0
+#define DEFAULT_HIGH 30.0
 /* Kernels up to this many taps run directly, longer ones partitioned: where the two met in
  * `bench_filters fir` (64 channels, 20-frame blocks; docs/filters.md). */
 #define DIRECT_MAX_TAPS 256
@@ -21,15 +23,15 @@
 static const weft_param_spec params[] = {
     { "kind", WEFT_PARAM_CHOICE, 0, "lowpass", WEFT_NO_RANGE, "",
       "lowpass|highpass|bandpass|bandstop", "which band passes (as for butterworth)" },
-    { "low", WEFT_PARAM_NUMBER, 0, "0", 0, 1e6, "Hz", NULL,
+    { "low", WEFT_PARAM_NUMBER, 0, "8", 0, 1e6, "Hz", NULL,
       "lower band edge (-6 dB); the cutoff of a highpass" },
-    { "high", WEFT_PARAM_NUMBER, 0, "0", 0, 1e6, "Hz", NULL,
+    { "high", WEFT_PARAM_NUMBER, 0, "30", 0, 1e6, "Hz", NULL,
       "upper band edge (-6 dB); the cutoff of a lowpass" },
     { "window", WEFT_PARAM_CHOICE, 0, "hamming", WEFT_NO_RANGE, "", "hamming|blackman|kaiser",
       "window that truncates the ideal response" },
     { "taps", WEFT_PARAM_INTEGER, 0, "0", 0, MAX_TAPS, "", NULL,
       "kernel length; 0: derived from transition (and ripple for kaiser)" },
-    { "transition", WEFT_PARAM_NUMBER, 0, "0", 0, 1e6, "Hz", NULL,
+    { "transition", WEFT_PARAM_NUMBER, 0, "5", 0, 1e6, "Hz", NULL,
       "width of the transition band, to derive taps" },
     { "ripple", WEFT_PARAM_NUMBER, 0, "60", 8, 300, "dB", NULL,
       "kaiser: stop-band attenuation (and pass-band ripple) to design for" },
@@ -62,18 +64,13 @@ static int edge_ok(const weft_host *host, const weft_params *p, const char *name
                    const char *kind, int used, double rate)
 {
     double f = weft_param_number(p, name);
-    int given = weft_param_given(p, name);
-    if (!used && given) {
-        host->param_error(host, name, "a %s has no %s edge; give %s only", kind, name,
-                          !strcmp(name, "low") ? "high (its cutoff)" : "low (its cutoff)");
-        return 0;
-    }
-    if (!used)
+    double default_hz = !strcmp(name, "low") ? DEFAULT_LOW : DEFAULT_HIGH;
+    if (!used) {
+        /* Ignored; said when written with a value of its own (not a full graph's default). */
+        if (weft_param_given(p, name) && f != default_hz)
+            host->log(host, WEFT_LOG_WARN, "a %s has no %s edge; %s (%g Hz) is ignored", kind,
+                      name, name, f);
         return 1;
-    if (!given) {
-        host->param_error(host, name, "a %s FIR needs %s (Hz), or explicit coefficients", kind,
-                          name);
-        return 0;
     }
     if (!(f > 0)) {
         host->param_error(host, name, "%s (%g Hz) must be above 0 Hz", name, f);
@@ -102,9 +99,9 @@ static int derive_taps(const weft_host *host, const weft_params *p, fir_kind kin
                        fir_window w, double rate)
 {
     double width = weft_param_number(p, "transition");
-    if (!weft_param_given(p, "transition") || !(width > 0)) {
+    if (!(width > 0)) {
         host->param_error(host, "transition", "give taps, or transition (the width of the "
-                          "transition band in Hz) to derive them, e.g. transition: 2");
+                          "transition band in Hz, above 0) to derive them, e.g. transition: 2");
         return -1;
     }
     double n = w == FIR_KAISER ? fir_kaiser_taps(weft_param_number(p, "ripple"), width, rate)
@@ -127,11 +124,10 @@ static double *make_kernel(const weft_host *host, const weft_params *p, double r
 {
     const weft_param *given = weft_param_get(p, "coefficients");
     if (given->cols > 0) {
-        if (weft_param_given(p, "low") || weft_param_given(p, "high")) {
-            host->param_error(host, "coefficients", "coefficients are given, so the design "
-                              "parameters low and high would be ignored; remove them");
-            return NULL;
-        }
+        if ((weft_param_given(p, "low") && weft_param_number(p, "low") != DEFAULT_LOW) ||
+            (weft_param_given(p, "high") && weft_param_number(p, "high") != DEFAULT_HIGH))
+            host->log(host, WEFT_LOG_WARN, "coefficients are given, so the design parameters "
+                      "(low, high, window, taps ...) are ignored");
         double *h = malloc(given->cols * sizeof *h);
         if (h)
             memcpy(h, given->values, given->cols * sizeof *h);

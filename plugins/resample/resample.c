@@ -22,9 +22,9 @@
 
 static const weft_param_spec params[] = {
     { "rate", WEFT_PARAM_NUMBER, 0, "0", 0, 1e7, "Hz", NULL,
-      "output rate; up and down follow from the ratio of whole rates (or give up, down)" },
+      "output rate; up and down follow from the ratio of whole rates; 0: use up and down" },
     { "up", WEFT_PARAM_INTEGER, 0, "1", 1, MAX_FACTOR, "", NULL, "interpolation factor" },
-    { "down", WEFT_PARAM_INTEGER, 0, "1", 1, MAX_FACTOR, "", NULL, "decimation factor" },
+    { "down", WEFT_PARAM_INTEGER, 0, "2", 1, MAX_FACTOR, "", NULL, "decimation factor" },
     { "zero_crossings", WEFT_PARAM_INTEGER, 0, "10", 1, 100, "", NULL,
       "half the anti-aliasing filter's length, in zero crossings of its sinc" },
     { "beta", WEFT_PARAM_NUMBER, 0, "5", 0, 50, "", NULL, "Kaiser window shape of the filter" },
@@ -78,13 +78,13 @@ static uint64_t gcd(uint64_t a, uint64_t b)
 static int factors(const weft_host *host, const weft_params *p, double in_rate, uint32_t *up,
                    uint32_t *down)
 {
-    if (weft_param_given(p, "rate")) {
-        double out_rate = weft_param_number(p, "rate");
+    double out_rate = weft_param_number(p, "rate");
+    if (out_rate > 0) { /* 0, the default: up and down say it */
         if (weft_param_given(p, "up") || weft_param_given(p, "down")) {
             host->param_error(host, "rate", "give rate, or up and down, not both");
             return -1;
         }
-        if (out_rate != floor(out_rate) || in_rate != floor(in_rate) || !(out_rate > 0)) {
+        if (out_rate != floor(out_rate) || in_rate != floor(in_rate)) {
             host->param_error(host, "rate", "rate %g Hz from %g Hz is not a ratio of whole "
                               "rates; give up and down instead", out_rate, in_rate);
             return -1;
@@ -107,7 +107,7 @@ static int factors(const weft_host *host, const weft_params *p, double in_rate, 
         *down = (uint32_t)(d / g);
     }
     if (*up == 1 && *down == 1) {
-        host->param_error(host, weft_param_given(p, "rate") ? "rate" : "down",
+        host->param_error(host, out_rate > 0 ? "rate" : "down",
                           "up and down are both 1: nothing to resample (give rate, or down: 2 "
                           "for half the rate)");
         return -1;

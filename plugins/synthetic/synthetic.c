@@ -50,7 +50,7 @@ static const weft_param_spec params[] = {
       "emit the cue markers (give one source of a session the markers, not both)" },
     { "mixing", WEFT_PARAM_MATRIX, 0, "[]", -1e6, 1e6, "", NULL,
       "channels x sources mixing matrix (eeg); empty: drawn from the subject seed" },
-    { NULL },
+    WEFT_PARAMS_END,
 };
 
 /* Scalp positions of the 10-10 system around the sensorimotor cortex first (common practice

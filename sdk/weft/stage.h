@@ -104,6 +104,9 @@ typedef struct weft_param_spec {
 
 #define WEFT_NO_RANGE 1.0, 0.0
 
+/* Ends a parameter array (a designated initializer, so -Wextra stays quiet). */
+#define WEFT_PARAMS_END { .name = NULL }
+
 /* The value of one parameter as given to init. Every declared parameter is present, in the
  * order of the declaration; `given` is 0 when the value is the default (or a learned parameter
  * not yet learned, in which case the value is empty). Pointers are owned by the host and stay
@@ -241,7 +244,13 @@ typedef struct weft_host {
     /* Sources that wait on a descriptor (socket, pipe) register it in init, so the host can
      * poll() instead of spinning; process is then called when it is ready (or on the clock). */
     int (*watch_fd)(const struct weft_host *host, int fd, uint32_t events);
+    /* WEFT_HOST_* bits (appended in ABI 1.0; read them only through this field). */
+    uint32_t flags;
 } weft_host;
+
+/* host->flags: init is only validating (`weft check`): check everything, but create,
+ * truncate or connect nothing -- no output file, no socket, no device. */
+#define WEFT_HOST_CHECK_ONLY 1u
 
 /* ---- the descriptor ---------------------------------------------------------------------- */
 
