@@ -68,13 +68,22 @@ SOS_TARGET static void SOS_KERNEL(const sos_coef *k, const void *x_tile, void *y
     const size_t C = channels, L = SOS_LANES;
     const int monic = k->b0 == 1;
     size_t c0 = 0;
-    /* Each call has constant `vecs` and `monic` once inlined: four specialised loops. */
+    /* Each call has constant `vecs` and `monic` once inlined: specialised loops. */
     for (; c0 + SOS_VECS * L <= C; c0 += SOS_VECS * L) {
         if (monic)
             SOS_GROUP(k, x, y, frames, C, c0, SOS_VECS, 1);
         else
             SOS_GROUP(k, x, y, frames, C, c0, SOS_VECS, 0);
     }
+#if SOS_VECS > 4
+    /* Wide registers: 64 channels are only four vectors of floats; keep four in flight. */
+    for (; c0 + 4 * L <= C; c0 += 4 * L) {
+        if (monic)
+            SOS_GROUP(k, x, y, frames, C, c0, 4, 1);
+        else
+            SOS_GROUP(k, x, y, frames, C, c0, 4, 0);
+    }
+#endif
     for (; c0 + L <= C; c0 += L) {
         if (monic)
             SOS_GROUP(k, x, y, frames, C, c0, 1, 1);
