@@ -21,6 +21,9 @@ static const weft_param_spec params[] = {
       "lower band edge (-3 dB); the cutoff of a highpass" },
     { "high", WEFT_PARAM_NUMBER, 0, "30", 0, 1e6, "Hz", NULL,
       "upper band edge (-3 dB); the cutoff of a lowpass" },
+    { "precision", WEFT_PARAM_CHOICE, 0, "double", WEFT_NO_RANGE, "", "double|single",
+      "arithmetic between and inside the sections: double (accurate for low cutoffs at high "
+      "rates) or single (faster, see docs/filters.md for its error)" },
     { .name = NULL },
 };
 
@@ -104,15 +107,27 @@ static int init(const weft_host *host, const weft_params *p, const weft_layout *
         host->error(host, "cannot design a %s of order %d for %g Hz", kind_text, order, rate);
         return WEFT_EINVAL;
     }
+    sos_precision precision =
+        strcmp(weft_param_text(p, "precision"), "single") ? SOS_DOUBLE : SOS_SINGLE;
     butterworth *b = calloc(1, sizeof *b);
-    if (!b || sos_cascade_init(&b->cascade, sections, (uint32_t)n, in[0].channels) ||
-        channel_labels_copy(&b->labels, &in[0], out)) {
+    int rc = b ? sos_cascade_init_precision(&b->cascade, sections, (uint32_t)n, in[0].channels,
+                                            precision)
+               : -1;
+    if (rc == SOS_ESINGLE) {
+        host->param_error(host, "precision", "precision: single cannot hold this %s of order %d "
+                          "at %g Hz (its poles or gain are beyond float32); use precision: "
+                          "double", kind_text, order, rate);
+        destroy(b);
+        return WEFT_EINVAL;
+    }
+    if (rc || channel_labels_copy(&b->labels, &in[0], out)) {
         host->error(host, "out of memory for %u channels", in[0].channels);
         destroy(b);
         return WEFT_ENOMEM;
     }
-    host->log(host, WEFT_LOG_DEBUG, "%s order %d at %g Hz: %d second-order sections",
-              kind_text, order, rate, n);
+    host->log(host, WEFT_LOG_DEBUG, "%s order %d at %g Hz: %d second-order sections in %s "
+              "precision", kind_text, order, rate, n,
+              precision == SOS_SINGLE ? "single" : "double");
     b->host = host;
     out->kind = WEFT_STREAM_SAMPLES;
     out->channels = in[0].channels;

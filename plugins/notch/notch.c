@@ -3,6 +3,7 @@
  * notch widens with frequency as the harmonics do). */
 #include <math.h>
 #include <stdlib.h>
+#include <string.h>
 #include <weft/stage.h>
 
 #include "channel_labels.h"
@@ -18,6 +19,8 @@ static const weft_param_spec params[] = {
       "quality factor: the notch frequency over the -3 dB width of the notch" },
     { "harmonics", WEFT_PARAM_INTEGER, 0, "1", 1, MAX_HARMONICS, "", NULL,
       "notches at freq, 2 freq ... up to this many multiples" },
+    { "precision", WEFT_PARAM_CHOICE, 0, "double", WEFT_NO_RANGE, "", "double|single",
+      "arithmetic between and inside the sections: double or single (faster, less accurate)" },
     { .name = NULL },
 };
 
@@ -63,9 +66,20 @@ static int init(const weft_host *host, const weft_params *p, const weft_layout *
     sos_coef sections[MAX_HARMONICS];
     for (int h = 0; h < harmonics; h++)
         sections[h] = notch_design((h + 1) * freq, q, rate);
+    sos_precision precision =
+        strcmp(weft_param_text(p, "precision"), "single") ? SOS_DOUBLE : SOS_SINGLE;
     notch *s = calloc(1, sizeof *s);
-    if (!s || sos_cascade_init(&s->cascade, sections, (uint32_t)harmonics, in[0].channels) ||
-        channel_labels_copy(&s->labels, &in[0], out)) {
+    int rc = s ? sos_cascade_init_precision(&s->cascade, sections, (uint32_t)harmonics,
+                                            in[0].channels, precision)
+               : -1;
+    if (rc == SOS_ESINGLE) {
+        host->param_error(host, "precision", "precision: single cannot hold a notch at %g Hz "
+                          "with q %g at %g Hz (its poles are beyond float32); use precision: "
+                          "double", freq, q, rate);
+        destroy(s);
+        return WEFT_EINVAL;
+    }
+    if (rc || channel_labels_copy(&s->labels, &in[0], out)) {
         host->error(host, "out of memory for %u channels", in[0].channels);
         destroy(s);
         return WEFT_ENOMEM;

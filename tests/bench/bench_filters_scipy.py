@@ -3,7 +3,8 @@ the same job -- Butterworth band-pass 8-30 Hz, order 4 (4 sections), 64 channels
 
     env -u OPENBLAS_CORETYPE -u OPENBLAS_L2_SIZE /usr/bin/python3 \\
         tests/bench/bench_filters_scipy.py build/tests/bench/bench_filters
-(`make -C build bench` runs exactly this). Prints figures and ratios; it fails nothing.
+(`make -C build bench` runs exactly this). Prints figures and ratios for weft's double
+(default) and single precision; it fails nothing.
 Targets from the project brief: weft >= 10x scipy's whole-array float32 throughput and
 >= 50x its 10-sample streaming throughput (sosfilt per block with the state carried in zi)."""
 import os
@@ -81,6 +82,11 @@ def main():
             ("weft long pass / scipy whole float32", w["iir_long"], s["whole_float32"], 10),
             ("weft warm / scipy whole float64", w["iir_warm"], s["whole_float64"], None),
             ("weft 10-frame blocks / scipy 10-sample blocks", w["iir_stream10"],
+             s["stream10_float32"], 50),
+            ("single: warm / scipy whole float32", w["iir_single_warm"], s["whole_float32"], 10),
+            ("single: long pass / scipy whole float32", w["iir_single_long"],
+             s["whole_float32"], 10),
+            ("single: 10-frame blocks / scipy 10-sample", w["iir_single_stream10"],
              s["stream10_float32"], 50))
     for label, a, b, target in rows:
         note = "" if target is None else "  (target %dx: %s)" % (

@@ -95,6 +95,43 @@ Test(filters_butterworth, half_hertz_highpass_at_2khz_is_stable_over_a_million_s
     free(one);
 }
 
+/* The same case in single precision: float32 coefficients move the poles by ~1e-7 but they
+ * stay ~1e-3 inside the unit circle, so the response must still decay, and the flush of tiny
+ * float state (below 1e-30) must bring it to exactly zero rather than a subnormal limit cycle. */
+Test(filters_butterworth, half_hertz_highpass_in_single_precision_decays_over_a_million_samples)
+{
+    const size_t n = 1000000;
+    float *h = impulse_response("{ kind: highpass, order: 4, low: 0.5, precision: single }",
+                                2000, n);
+    double tail = 0;
+    for (size_t i = 0; i < n; i++) {
+        cr_assert(isfinite(h[i]), "sample %zu is %g", i, h[i]);
+        if (i >= n - 100000 && fabs(h[i]) > tail)
+            tail = fabs(h[i]);
+    }
+    cr_expect(tail < 1e-12, "the impulse response has not decayed: %g in the last 50 s", tail);
+    cr_expect(h[n - 1] == 0, "the last sample is %g, not flushed to zero", h[n - 1]);
+    /* Float32 coefficients and state shift the response near the poles: measured -2.957 dB at
+     * the cutoff (0.05 dB, 0.6% in amplitude, off); 0.1 dB allows for that, not for a wrong
+     * design (a cutoff off by 1% is 0.18 dB away for order 4). */
+    double db = filters_db(filters_magnitude(h, n, 1, 0.5, 2000));
+    cr_expect(fabs(db + 3.0103) < 0.1, "%.4f dB at 0.5 Hz", db);
+    free(h);
+}
+
+/* A design whose poles float32 cannot keep inside the unit circle is refused, not run: an
+ * order-10 low-pass at 0.5 Hz for a 1 MHz rate has poles within 3e-6 of z = 1, where float32
+ * coefficients (rounding 6e-8 near 1) lose the stability triangle. */
+Test(filters_butterworth, single_precision_refuses_a_design_float32_cannot_hold)
+{
+    const char *params = "{ kind: lowpass, order: 10, high: 0.5, precision: single }";
+    const char *msg = filters_init_error("butterworth", params, 1, 1e6);
+    cr_expect(strstr(msg, "precision: single cannot hold") && strstr(msg, "use precision: double"),
+              "got \"%s\"", msg);
+    cr_expect_str_empty(filters_init_error("butterworth", "{ kind: lowpass, order: 10, "
+                                           "high: 0.5 }", 1, 1e6));
+}
+
 /* A band-stop's zeros lie on the unit circle at its centre frequency, where the substitution
  * s -> B s / (s^2 + w0^2) puts them (w0^2 = w1 w2 of the prewarped edges), so the stop band
  * reaches zero there. */
