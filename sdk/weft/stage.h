@@ -244,7 +244,7 @@ typedef struct weft_host {
     /* Sources that wait on a descriptor (socket, pipe) register it in init, so the host can
      * poll() instead of spinning; process is then called when it is ready (or on the clock). */
     int (*watch_fd)(const struct weft_host *host, int fd, uint32_t events);
-    /* WEFT_HOST_* bits (appended in ABI 1.0; read them only through this field). */
+    /* WEFT_HOST_* bits: how the host is driving this instance. */
     uint32_t flags;
 } weft_host;
 
