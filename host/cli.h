@@ -39,4 +39,10 @@ int cli_apply_sets(struct graph *g, const cli_sets *s, struct diag *d);
 int cli_number(const char *opt, const char *text, double *out);
 int cli_count(const char *opt, const char *text, unsigned long *out);
 
+/* Check, before any work, that OPT's file OUT can be written without destroying an input:
+ * its folder must exist, it must not be a folder, and it must not be the same file as any of
+ * the n INPUTS (NULL entries are skipped). Prints a usage error and returns -1 if not.
+ * "-" (standard output) always passes. */
+int cli_check_output(const char *opt, const char *out, const char *const *inputs, unsigned n);
+
 #endif

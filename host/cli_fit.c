@@ -116,7 +116,8 @@ static int parse_args(int argc, char **argv, fit_args *a)
                 help);
         return -1;
     }
-    return 0;
+    const char *inputs[] = { a->graph, a->data };
+    return cli_check_output("-o", a->out, inputs, 2);
 }
 
 /* "stage 'intent' (logvar_lda): trials rest 20, grip 20; cross-validated accuracy ..." */

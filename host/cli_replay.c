@@ -106,6 +106,10 @@ static int parse_args(int argc, char **argv, replay_args *a)
                                                           : "which graph?", help);
         return -1;
     }
+    const char *inputs[] = { a->graph, a->opt.data };
+    if (cli_check_output("--json", a->json, inputs, 2) ||
+        cli_check_output("--report", a->report, inputs, 2))
+        return -1;
     a->opt.block = (uint32_t)a->block;
     a->opt.progress = !a->quiet && isatty(STDERR_FILENO);
     return 0;

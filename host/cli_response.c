@@ -68,6 +68,8 @@ static int parse_args(int argc, char **argv, response_args *a)
         fputs(help, stderr);
         return -1;
     }
+    if (cli_check_output("--svg", a->svg, &a->graph, 1))
+        return -1;
     return 0;
 }
 

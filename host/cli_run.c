@@ -104,7 +104,7 @@ static int parse_args(int argc, char **argv, run_args *a)
         fputs(help, stderr);
         return -1;
     }
-    return 0;
+    return cli_check_output("--session-log", a->session_log, &a->graph, 1);
 }
 
 static int has_unbounded_source(const pipeline *pl)

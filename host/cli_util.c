@@ -3,6 +3,8 @@
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
 
 #include "cli.h"
 #include "graph_set.h"
@@ -32,6 +34,48 @@ int cli_count(const char *opt, const char *text, unsigned long *out)
         return -1;
     }
     *out = v;
+    return 0;
+}
+
+/* The folder part of PATH ("." when it has none), written into BUF. */
+static const char *folder_of(const char *path, char *buf, size_t size)
+{
+    const char *slash = strrchr(path, '/');
+    if (!slash)
+        return ".";
+    size_t len = slash == path ? 1 : (size_t)(slash - path);
+    if (len >= size)
+        return NULL;
+    memcpy(buf, path, len);
+    buf[len] = '\0';
+    return buf;
+}
+
+int cli_check_output(const char *opt, const char *out, const char *const *inputs, unsigned n)
+{
+    if (!out || !strcmp(out, "-"))
+        return 0;
+    struct stat so, si;
+    char buf[4096];
+    const char *folder = folder_of(out, buf, sizeof buf);
+    if (!folder || stat(folder, &si) || !S_ISDIR(si.st_mode)) {
+        fprintf(stderr, "weft: %s %s: the folder '%s' does not exist; create it first\n", opt,
+                out, folder ? folder : out);
+        return -1;
+    }
+    if (stat(out, &so))
+        return 0; /* a new file */
+    if (S_ISDIR(so.st_mode)) {
+        fprintf(stderr, "weft: %s %s: that is a folder; give a file name\n", opt, out);
+        return -1;
+    }
+    for (unsigned i = 0; i < n; i++)
+        if (inputs[i] && !stat(inputs[i], &si) && si.st_dev == so.st_dev &&
+            si.st_ino == so.st_ino) {
+            fprintf(stderr, "weft: %s %s is the input '%s'; writing it would destroy it, so "
+                    "choose another file\n", opt, out, inputs[i]);
+            return -1;
+        }
     return 0;
 }
 

@@ -10,16 +10,21 @@
 #include <sys/socket.h>
 #include <sys/stat.h>
 #include <sys/un.h>
+#include <time.h>
 #include <unistd.h>
 
 #define MAX_CLIENTS 8
 #define LINE_MAX_BYTES 65536
 #define REPLY_MAX_BYTES 65536
+/* A client silent this long gives its place to a newcomer when all places are taken, so
+ * connections left open by a stuck program cannot lock `weft stop` out of a run. */
+#define IDLE_EVICT_SECONDS 1.0
 
 typedef struct client {
     int fd;
     size_t len;
     char *line;
+    double last_active;     /* monotonic seconds of the last connect or read */
 } client;
 
 struct control {
@@ -118,6 +123,30 @@ static void drop(client *cl)
     cl->len = 0;
 }
 
+static double now_seconds(void)
+{
+    struct timespec ts;
+    clock_gettime(CLOCK_MONOTONIC, &ts);
+    return (double)ts.tv_sec + ts.tv_nsec * 1e-9;
+}
+
+/* A free place, else the place of the client silent longest if it has been idle long enough. */
+static client *free_place(control *c, double now)
+{
+    client *idlest = NULL;
+    for (int i = 0; i < MAX_CLIENTS; i++) {
+        client *cl = &c->clients[i];
+        if (cl->fd < 0)
+            return cl;
+        if (!idlest || cl->last_active < idlest->last_active)
+            idlest = cl;
+    }
+    if (now - idlest->last_active < IDLE_EVICT_SECONDS)
+        return NULL;
+    drop(idlest);
+    return idlest;
+}
+
 static void accept_new(control *c)
 {
     for (;;) {
@@ -125,14 +154,13 @@ static void accept_new(control *c)
         if (fd < 0)
             return;
         set_nonblocking(fd);
-        int placed = 0;
-        for (int i = 0; i < MAX_CLIENTS && !placed; i++)
-            if (c->clients[i].fd < 0) {
-                c->clients[i].fd = fd;
-                c->clients[i].len = 0;
-                placed = 1;
-            }
-        if (!placed) {
+        double now = now_seconds();
+        client *place = free_place(c, now);
+        if (place) {
+            place->fd = fd;
+            place->len = 0;
+            place->last_active = now;
+        } else {
             static const char busy[] = "{\"ok\":false,\"error\":\"too many control clients\"}\n";
             if (write(fd, busy, sizeof busy - 1) < 0) { /* nothing more to do */ }
             close(fd);
@@ -160,6 +188,7 @@ static int serve_client(control *c, client *cl, control_handler handle, void *ct
         }
         if (k < 0)
             return stop;
+        cl->last_active = now_seconds();
         cl->len += (size_t)k;
         char *nl;
         while (cl->fd >= 0 && (nl = memchr(cl->line, '\n', cl->len))) {

@@ -5,6 +5,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include <errno.h>
+#include <sys/stat.h>
 #include <yaml.h>
 
 /* Nesting deeper than this is no graph file; refusing it keeps hostile input from exhausting
@@ -202,6 +203,11 @@ int ydoc_load(ydoc *doc, const char *path, const char *text, diag *d)
         f = fopen(path, "rb");
         if (!f)
             return diag_set(d, "%s: cannot open: %s", path, strerror(errno));
+        struct stat st;
+        if (fstat(fileno(f), &st) == 0 && S_ISDIR(st.st_mode)) {
+            fclose(f);
+            return diag_set(d, "%s: is a folder, not a graph file", path);
+        }
     }
     parse_ctx c = { .path = path, .d = d };
     yaml_parser_initialize(&c.parser);
