@@ -1,6 +1,7 @@
 /* cli_replay: `weft replay GRAPH --data REC` -- run a graph on a recording as it runs live and
  * score its readouts against the recording's cues. */
 #include <math.h>
+#include <errno.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -106,6 +107,12 @@ static int parse_args(int argc, char **argv, replay_args *a)
                                                           : "which graph?", help);
         return -1;
     }
+    if (!isnan(a->opt.score_from) && !isnan(a->opt.score_to) &&
+        a->opt.score_from >= a->opt.score_to) {
+        fprintf(stderr, "weft replay: --from %g s must be before --to %g s: the scoring window "
+                "after each cue would be empty\n", a->opt.score_from, a->opt.score_to);
+        return -1;
+    }
     const char *inputs[] = { a->graph, a->opt.data };
     if (cli_check_output("--json", a->json, inputs, 2) ||
         cli_check_output("--report", a->report, inputs, 2))
@@ -177,7 +184,7 @@ static int write_to(const char *path, int (*fn)(FILE *, const replay *, const ch
 {
     FILE *f = strcmp(path, "-") ? fopen(path, "w") : stdout;
     if (!f) {
-        perror(path);
+        fprintf(stderr, "weft: cannot write %s: %s\n", path, strerror(errno));
         return -1;
     }
     int rc = fn(f, r, graph);

@@ -1,6 +1,7 @@
 /* cli_response: `weft response GRAPH STAGE [--to STAGE2]` -- magnitude, phase and group delay
  * of a filter stage or a chain of them, as a table and optionally an SVG plot. */
 #include <math.h>
+#include <errno.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -232,7 +233,7 @@ static int write_svg(const char *file, const response *r, const response_args *a
 {
     FILE *o = fopen(file, "w");
     if (!o) {
-        perror(file);
+        fprintf(stderr, "weft: cannot write %s: %s\n", file, strerror(errno));
         return -1;
     }
     double hi = r->out_rate / 2;
@@ -256,7 +257,7 @@ static int write_svg(const char *file, const response *r, const response_args *a
     fprintf(o, "<text x='%d' y='%d' font-size='12' text-anchor='middle'>frequency (Hz, "
             "logarithmic)</text>\n</svg>\n", (LEFT + SVG_W - RIGHT) / 2, height - 12);
     if (fclose(o)) {
-        perror(file);
+        fprintf(stderr, "weft: cannot write %s: %s\n", file, strerror(errno));
         return -1;
     }
     return 0;

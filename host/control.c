@@ -168,19 +168,51 @@ static void accept_new(control *c)
     }
 }
 
-static void reply_line(client *cl, const char *text)
+/* One write of the whole line: a client either gets it whole or, if it has not read its
+ * earlier replies and the socket buffer is full, is dropped -- never half a line. */
+static void reply_line(client *cl, char *text, size_t room)
 {
     size_t n = strlen(text);
-    /* Replies are short; a client that does not read them loses them, the loop goes on. */
-    if (write(cl->fd, text, n) < 0 || write(cl->fd, "\n", 1) < 0)
+    if (n + 1 >= room)
+        n = room - 2;
+    text[n] = '\n';
+    if (write(cl->fd, text, n + 1) != (ssize_t)(n + 1))
         drop(cl);
 }
+
+/* Commands one client may have run per round: a client pouring commands in cannot hold the
+ * run loop; what it sent waits for the next round. */
+#define COMMANDS_PER_ROUND 16
 
 /* Returns 1 if a command asked to stop. */
 static int serve_client(control *c, client *cl, control_handler handle, void *ctx)
 {
     int stop = 0;
+    unsigned served = 0;
     for (;;) {
+        char *nl;
+        while (cl->fd >= 0 && served < COMMANDS_PER_ROUND &&
+               (nl = memchr(cl->line, '\n', cl->len))) {
+            *nl = 0;
+            if (nl > cl->line && nl[-1] == '\r')
+                nl[-1] = 0;
+            c->reply[0] = 0;
+            stop |= handle(ctx, cl->line, c->reply, REPLY_MAX_BYTES - 1) == 1;
+            served++;
+            size_t used = (size_t)(nl + 1 - cl->line);
+            memmove(cl->line, nl + 1, cl->len - used);
+            cl->len -= used;
+            reply_line(cl, c->reply, REPLY_MAX_BYTES);
+        }
+        if (cl->fd < 0 || served == COMMANDS_PER_ROUND)
+            return stop;
+        if (cl->len == LINE_MAX_BYTES - 1) {
+            snprintf(c->reply, REPLY_MAX_BYTES, "%s",
+                     "{\"ok\":false,\"error\":\"command line longer than 64 KiB\"}");
+            reply_line(cl, c->reply, REPLY_MAX_BYTES);
+            drop(cl);
+            return stop;
+        }
         ssize_t k = read(cl->fd, cl->line + cl->len, LINE_MAX_BYTES - 1 - cl->len);
         if (k == 0 || (k < 0 && errno != EAGAIN && errno != EINTR)) {
             drop(cl);
@@ -190,25 +222,6 @@ static int serve_client(control *c, client *cl, control_handler handle, void *ct
             return stop;
         cl->last_active = now_seconds();
         cl->len += (size_t)k;
-        char *nl;
-        while (cl->fd >= 0 && (nl = memchr(cl->line, '\n', cl->len))) {
-            *nl = 0;
-            if (nl > cl->line && nl[-1] == '\r')
-                nl[-1] = 0;
-            c->reply[0] = 0;
-            stop |= handle(ctx, cl->line, c->reply, REPLY_MAX_BYTES) == 1;
-            reply_line(cl, c->reply);
-            size_t used = (size_t)(nl + 1 - cl->line);
-            if (cl->fd >= 0) {
-                memmove(cl->line, nl + 1, cl->len - used);
-                cl->len -= used;
-            }
-        }
-        if (cl->fd >= 0 && cl->len == LINE_MAX_BYTES - 1) {
-            reply_line(cl, "{\"ok\":false,\"error\":\"command line longer than 64 KiB\"}");
-            drop(cl);
-            return stop;
-        }
     }
 }
 

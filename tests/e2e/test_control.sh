@@ -29,6 +29,23 @@ check "swap is accepted with its sample index" grep -q '"ok":true,"stage":"sum",
 check "a misspelt parameter is refused (exit 1)" test $rc -eq 1
 check "the refusal suggests the right name" grep -q "did you mean 'length'" "$tmp/bad"
 "$WEFT" swap "$sock" amp rate=500 >/dev/null 2>&1; check "a source swap is refused" test $? -eq 1
+# A client pouring 200 commands in at once gets all 200 replies, whole lines, over several
+# rounds (at most 16 commands per client per round), and the run keeps going meanwhile.
+"$PYTHON" - "$sock" <<'PY'
+import json, socket, sys
+s = socket.socket(socket.AF_UNIX, socket.SOCK_STREAM)
+s.connect(sys.argv[1])
+s.sendall(b"status\n" * 200)
+data = b""
+while data.count(b"\n") < 200:
+    chunk = s.recv(1 << 20)
+    assert chunk, "connection closed early"
+    data += chunk
+replies = [json.loads(l) for l in data.split(b"\n")[:200]]
+assert all(r["ok"] for r in replies)
+assert replies[-1]["rounds"] > replies[0]["rounds"], "served over several rounds"
+PY
+check "200 commands at once: 200 whole replies over several rounds" test $? -eq 0
 sleep 0.5
 "$WEFT" stop "$sock" >/dev/null; check "stop is accepted" test $? -eq 0
 wait $pid; rc=$?

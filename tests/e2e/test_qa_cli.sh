@@ -70,5 +70,10 @@ check "fit -o a new file in an existing folder works" test -s "$tmp/fitted.yaml"
 "$WEFT" replay "$tmp/fitted.yaml" --data "$tmp/s.bdf" --json - --quiet >"$tmp/m.json" 2>"$tmp/err"
 check "replay --json - writes to standard output" grep -q '"readouts"' "$tmp/m.json"
 
+# An empty scoring window is a usage error, not a report of nothing.
+"$WEFT" replay "$tmp/fitted.yaml" --data "$tmp/s.bdf" --from 5 --to 1 >/dev/null 2>"$tmp/err"
+check "replay --from after --to is a usage error (2)" test $? -eq 2
+check "... that says why" grep -q "must be before --to" "$tmp/err"
+
 echo "$fails failed"
 test $fails -eq 0
