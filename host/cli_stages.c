@@ -3,6 +3,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <unistd.h>
 
 #include "cli.h"
 #include "params.h"
@@ -217,6 +218,8 @@ int cli_stages(int argc, char **argv)
     plugin_path_init(&path, NULL);
     int found = 0;
     for (unsigned i = 0; i < path.n && !(only && found); i++) {
+        if (access(path.dirs[i], F_OK) != 0)
+            continue; /* a folder of the search path that does not exist here */
         if (!only)
             printf("%s:\n", path.dirs[i]);
         list_dir(path.dirs[i], only, &found);
