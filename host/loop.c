@@ -83,10 +83,10 @@ static int pull_source(run *r, node *n, uint32_t request)
     int rc = n->api->process(n->self, NULL, 0, b);
     if (rc < 0)
         return runtime_fail(n, r->d, n->produced, n->out.rate);
-    if (rc == WEFT_END) {
+    /* The contract says an ended stream brings no frames; frames that come anyway are kept,
+     * since data already received is never dropped. */
+    if (rc == WEFT_END)
         n->ended = 1;
-        b->frames = 0;
-    }
     if (b->frames > request || b->n_markers > NODE_MARKERS_MAX) {
         snprintf(n->error, sizeof n->error,
                  "produced %u frames and %u markers for a request of %u and %d", b->frames,

@@ -51,7 +51,7 @@ extern "C" {
 
 enum {
     WEFT_OK = 0,
-    WEFT_END = 1,          /* source: the stream has ended; no frames in this block */
+    WEFT_END = 1,          /* source: the stream has ended (after this block's frames) */
     WEFT_EINVAL = -1,      /* bad parameter, layout or input data */
     WEFT_ENOMEM = -2,      /* allocation failed (init and fit only) */
     WEFT_EIO = -3,         /* a file, device or socket failed */
@@ -281,7 +281,8 @@ typedef struct weft_stage_api {
      *           changes, as many as are due) into out. Causal: state carries across calls, and
      *           any split of a stream into blocks must give bit-identical output.
      *   source: in is NULL, n_in 0; write up to out->capacity frames (the host's request) and
-     *           any markers. Return WEFT_END when a bounded stream is over.
+     *           any markers. Return WEFT_END when a bounded stream is over (frames
+     *           written in that same call are still used).
      *   sink:   in[i].frames is 0 for inputs without new data this round; out is NULL.
      *   readout: optional (may be NULL); sees every block of input in[i] before queries.
      * Filters and readouts must not allocate, block, lock or do I/O here. Sources and sinks
