@@ -20,8 +20,6 @@ typedef struct loader {
     diag *d;
 } loader;
 
-static char *dup_or_null(const char *s) { return s ? strdup(s) : NULL; }
-
 static int valid_name(const char *s)
 {
     if (!*s || strlen(s) > 64)
@@ -388,7 +386,6 @@ void graph_free(graph *g)
     free(g->dir);
     ydoc_free(&g->doc);
     memset(g, 0, sizeof *g);
-    (void)dup_or_null;
 }
 
 int graph_find(const graph *g, const char *name)
