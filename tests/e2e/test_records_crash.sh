@@ -24,6 +24,9 @@ stages:
 G
 "$WEFT" run "$tmp/live.yaml" --realtime --quiet 2>"$tmp/err" &
 pid=$!
+# Time from the first samples (the recorder creates its file when they arrive), so a slow
+# start (sanitizer build, loaded CI machine) is not counted as lost data.
+for _ in $(seq 100); do [ -e "$tmp/killed.bdf" ] && break; sleep 0.05; done
 start=$(date +%s.%N)
 sleep 3
 kill -9 $pid
