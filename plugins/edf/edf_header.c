@@ -174,9 +174,11 @@ static int check_ascii(const uint8_t *buf, size_t from, size_t to, uint32_t n_si
     return 0;
 }
 
+const uint8_t EDF_BDF_VERSION[8] = { 0xFF, 0x42, 0x49, 0x4F, 0x53, 0x45, 0x4D, 0x49 };
+
 static int parse_version(const uint8_t *buf, edf_header *h, char *err, size_t size)
 {
-    if (buf[0] == 0xFF && memcmp(buf + 1, "BIOSEMI", 7) == 0) {
+    if (memcmp(buf, EDF_BDF_VERSION, sizeof EDF_BDF_VERSION) == 0) {
         h->bdf = 1;
         h->sample_bytes = 3;
         return 0;
@@ -187,7 +189,7 @@ static int parse_version(const uint8_t *buf, edf_header *h, char *err, size_t si
     field_text(buf, 0, 8, text);
     if (strcmp(text, "0") != 0)
         return fail(err, size, "header byte 0 (version): '%s' is neither '0' (EDF) nor byte "
-                    "255 + 'BIOSEMI' (BDF); this is not an EDF or BDF file", text);
+                    "255 + the BDF letters (BDF); this is not an EDF or BDF file", text);
     h->sample_bytes = 2;
     return 0;
 }
@@ -462,8 +464,7 @@ int edf_header_format(const edf_header *h, uint8_t *buf, size_t len, char *err,
                     h->n_signals, len);
     memset(buf, ' ', need);
     if (h->bdf) {
-        buf[0] = 0xFF;
-        memcpy(buf + 1, "BIOSEMI", 7);
+        memcpy(buf, EDF_BDF_VERSION, sizeof EDF_BDF_VERSION);
     } else {
         buf[0] = '0';
     }

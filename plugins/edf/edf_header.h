@@ -1,12 +1,16 @@
 /* edf_header: the header of an EDF, EDF+, BDF or BDF+ file -- parsed from bytes with errors
  * that name the field and its byte offset, and formatted for writing. Layout from the EDF
  * specification (Kemp et al. 1992) and its EDF+ extension (Kemp and Olivan 2003); BDF is the
- * 24-bit variant (first byte 255, "BIOSEMI"), BDF+ its EDF+-style extension. */
+ * 24-bit variant (its version field is byte 255 and seven fixed letters, EDF_BDF_VERSION),
+ * BDF+ its EDF+-style extension. */
 #ifndef WEFT_EDF_HEADER_H
 #define WEFT_EDF_HEADER_H
 
 #include <stddef.h>
 #include <stdint.h>
+
+/* The 8-byte version field the BDF format prescribes: 0xFF and seven ASCII letters. */
+extern const uint8_t EDF_BDF_VERSION[8];
 
 #define EDF_FIXED_BYTES 256         /* the part before the signal headers */
 #define EDF_SIGNAL_BYTES 256        /* per signal */

@@ -159,7 +159,7 @@ Test(records_edf_header, formatted_header_reads_back)
     char err[EDF_ERROR_MAX] = "";
     cr_assert_eq(edf_header_format(&h, buf, sizeof buf, err, sizeof err), 0, "%s", err);
     cr_expect_eq(buf[0], 0xFF);
-    cr_expect_eq(memcmp(buf + 1, "BIOSEMI", 7), 0);
+    cr_expect_eq(memcmp(buf, EDF_BDF_VERSION, 8), 0);
     cr_expect_eq(memcmp(buf + 192, "BDF+C", 5), 0);
     cr_expect_eq(memcmp(buf + 184, "768     ", 8), 0);
     edf_header back;
