@@ -5,7 +5,6 @@
 #include <weft/stage.h>
 
 #include "butter_design.h"
-#include "channel_labels.h"
 #include "sos.h"
 
 #define DEFAULT_LOW 8.0
@@ -30,7 +29,6 @@ static const weft_param_spec params[] = {
 typedef struct butterworth {
     const weft_host *host;
     sos_cascade cascade;
-    channel_labels labels;
 } butterworth;
 
 static void destroy(void *self)
@@ -39,7 +37,6 @@ static void destroy(void *self)
     if (!b)
         return;
     sos_cascade_free(&b->cascade);
-    channel_labels_free(&b->labels);
     free(b);
 }
 
@@ -120,7 +117,7 @@ static int init(const weft_host *host, const weft_params *p, const weft_layout *
         destroy(b);
         return WEFT_EINVAL;
     }
-    if (rc || channel_labels_copy(&b->labels, &in[0], out)) {
+    if (rc) {
         host->error(host, "out of memory for %u channels", in[0].channels);
         destroy(b);
         return WEFT_ENOMEM;
@@ -130,6 +127,7 @@ static int init(const weft_host *host, const weft_params *p, const weft_layout *
               precision == SOS_SINGLE ? "single" : "double");
     b->host = host;
     out->kind = WEFT_STREAM_SAMPLES;
+    out->labels = in[0].labels; /* the same channels; the host keeps the strings */
     out->channels = in[0].channels;
     out->rate = rate;
     *self = b;

@@ -8,7 +8,6 @@
 #include <string.h>
 #include <weft/stage.h>
 
-#include "channel_labels.h"
 
 static const weft_param_spec params[] = {
     { "method", WEFT_PARAM_CHOICE, 0, "highpass", WEFT_NO_RANGE, "", "highpass|mean",
@@ -28,7 +27,6 @@ typedef struct detrend {
     uint32_t window, at;        /* running mean: ring of the last `window` inputs */
     uint64_t pos;
     double *ring, *sums;
-    channel_labels labels;
 } detrend;
 
 static void destroy(void *self)
@@ -40,7 +38,6 @@ static void destroy(void *self)
     free(d->prev_y);
     free(d->ring);
     free(d->sums);
-    channel_labels_free(&d->labels);
     free(d);
 }
 
@@ -84,8 +81,6 @@ static int init(const weft_host *host, const weft_params *p, const weft_layout *
     d->channels = in[0].channels;
     d->mean = !strcmp(weft_param_text(p, "method"), "mean");
     int rc = setup(d, host, p, in[0].rate);
-    if (rc == WEFT_OK && channel_labels_copy(&d->labels, &in[0], out))
-        rc = WEFT_ENOMEM;
     if (rc) {
         if (rc == WEFT_ENOMEM)
             host->error(host, "out of memory for %u channels", d->channels);
@@ -93,6 +88,7 @@ static int init(const weft_host *host, const weft_params *p, const weft_layout *
         return rc;
     }
     out->kind = WEFT_STREAM_SAMPLES;
+    out->labels = in[0].labels; /* the same channels; the host keeps the strings */
     out->channels = d->channels;
     out->rate = in[0].rate;
     *self = d;

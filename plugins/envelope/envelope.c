@@ -8,7 +8,6 @@
 #include <weft/stage.h>
 
 #include "butter_design.h"
-#include "channel_labels.h"
 #include "sos.h"
 
 #define SCRATCH_FRAMES 1024u
@@ -40,7 +39,6 @@ typedef struct envelope {
     uint32_t window, at;        /* at: ring slot of the oldest square */
     uint64_t pos;               /* frames seen, for the periodic exact re-summation */
     double *squares, *sums;
-    channel_labels labels;
 } envelope;
 
 static void destroy(void *self)
@@ -53,7 +51,6 @@ static void destroy(void *self)
     free(e->scratch);
     free(e->squares);
     free(e->sums);
-    channel_labels_free(&e->labels);
     free(e);
 }
 
@@ -130,8 +127,6 @@ static int init(const weft_host *host, const weft_params *p, const weft_layout *
     e->scratch = malloc((size_t)SCRATCH_FRAMES * e->channels * sizeof *e->scratch);
     if (rc == WEFT_OK && !e->scratch)
         rc = WEFT_ENOMEM;
-    if (rc == WEFT_OK && channel_labels_copy(&e->labels, &in[0], out))
-        rc = WEFT_ENOMEM;
     if (rc) {
         if (rc == WEFT_ENOMEM)
             host->error(host, "out of memory for %u channels", e->channels);
@@ -139,6 +134,7 @@ static int init(const weft_host *host, const weft_params *p, const weft_layout *
         return rc;
     }
     out->kind = WEFT_STREAM_SAMPLES;
+    out->labels = in[0].labels; /* the same channels; the host keeps the strings */
     out->channels = e->channels;
     out->rate = in[0].rate;
     *self = e;

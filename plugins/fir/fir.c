@@ -6,7 +6,6 @@
 #include <string.h>
 #include <weft/stage.h>
 
-#include "channel_labels.h"
 #include "fir_design.h"
 #include "fir_filter.h"
 
@@ -47,7 +46,6 @@ static const weft_param_spec params[] = {
 typedef struct fir_stage {
     const weft_host *host;
     fir_filter filter;
-    channel_labels labels;
 } fir_stage;
 
 static void destroy(void *self)
@@ -56,7 +54,6 @@ static void destroy(void *self)
     if (!s)
         return;
     fir_filter_free(&s->filter);
-    channel_labels_free(&s->labels);
     free(s);
 }
 
@@ -209,8 +206,7 @@ static int init(const weft_host *host, const weft_params *p, const weft_layout *
             hop = 0;
     }
     fir_stage *s = calloc(1, sizeof *s);
-    if (!s || fir_filter_init(&s->filter, h, taps, in[0].channels, hop) ||
-        channel_labels_copy(&s->labels, &in[0], out)) {
+    if (!s || fir_filter_init(&s->filter, h, taps, in[0].channels, hop)) {
         host->error(host, "out of memory for %u taps on %u channels", taps, in[0].channels);
         free(h);
         destroy(s);
@@ -220,6 +216,7 @@ static int init(const weft_host *host, const weft_params *p, const weft_layout *
     free(h);
     s->host = host;
     out->kind = WEFT_STREAM_SAMPLES;
+    out->labels = in[0].labels; /* the same channels; the host keeps the strings */
     out->channels = in[0].channels;
     out->rate = rate;
     *self = s;

@@ -6,7 +6,6 @@
 #include <string.h>
 #include <weft/stage.h>
 
-#include "channel_labels.h"
 #include "notch_design.h"
 #include "sos.h"
 
@@ -27,7 +26,6 @@ static const weft_param_spec params[] = {
 typedef struct notch {
     const weft_host *host;
     sos_cascade cascade;
-    channel_labels labels;
 } notch;
 
 static void destroy(void *self)
@@ -36,7 +34,6 @@ static void destroy(void *self)
     if (!s)
         return;
     sos_cascade_free(&s->cascade);
-    channel_labels_free(&s->labels);
     free(s);
 }
 
@@ -79,13 +76,14 @@ static int init(const weft_host *host, const weft_params *p, const weft_layout *
         destroy(s);
         return WEFT_EINVAL;
     }
-    if (rc || channel_labels_copy(&s->labels, &in[0], out)) {
+    if (rc) {
         host->error(host, "out of memory for %u channels", in[0].channels);
         destroy(s);
         return WEFT_ENOMEM;
     }
     s->host = host;
     out->kind = WEFT_STREAM_SAMPLES;
+    out->labels = in[0].labels; /* the same channels; the host keeps the strings */
     out->channels = in[0].channels;
     out->rate = rate;
     *self = s;

@@ -5,7 +5,6 @@
 #include <string.h>
 #include <weft/stage.h>
 
-#include "channel_labels.h"
 
 static const weft_param_spec params[] = {
     { "reference", WEFT_PARAM_STRING, 0, "average", WEFT_NO_RANGE, "", NULL,
@@ -17,7 +16,6 @@ typedef struct reref {
     const weft_host *host;
     uint32_t channels;
     int32_t ref;                /* channel index, or -1 for the common average */
-    channel_labels labels;
 } reref;
 
 static void destroy(void *self)
@@ -25,7 +23,6 @@ static void destroy(void *self)
     reref *r = self;
     if (!r)
         return;
-    channel_labels_free(&r->labels);
     free(r);
 }
 
@@ -60,7 +57,7 @@ static int init(const weft_host *host, const weft_params *p, const weft_layout *
         return WEFT_EINVAL;
     }
     reref *r = calloc(1, sizeof *r);
-    if (!r || channel_labels_copy(&r->labels, &in[0], out)) {
+    if (!r) {
         host->error(host, "out of memory");
         destroy(r);
         return WEFT_ENOMEM;
@@ -69,6 +66,7 @@ static int init(const weft_host *host, const weft_params *p, const weft_layout *
     r->channels = in[0].channels;
     r->ref = ref;
     out->kind = WEFT_STREAM_SAMPLES;
+    out->labels = in[0].labels; /* the same channels; the host keeps the strings */
     out->channels = in[0].channels;
     out->rate = in[0].rate;
     *self = r;

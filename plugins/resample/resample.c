@@ -11,7 +11,6 @@
 #include <string.h>
 #include <weft/stage.h>
 
-#include "channel_labels.h"
 #include "fir_design.h"
 #include "fir_filter.h"
 
@@ -50,7 +49,6 @@ typedef struct resampler {
     pending_marker pending[PENDING_MAX];  /* mapped, waiting for their output block */
     uint32_t n_pending;
     pending_marker sent[PENDING_MAX];     /* this block's, whose labels out->markers use */
-    channel_labels labels;
 } resampler;
 
 static void destroy(void *self)
@@ -60,7 +58,6 @@ static void destroy(void *self)
         return;
     free(r->phases);
     free(r->buf);
-    channel_labels_free(&r->labels);
     free(r);
 }
 
@@ -168,7 +165,7 @@ static int init(const weft_host *host, const weft_params *p, const weft_layout *
         r->buf = calloc(r->cap * r->channels, sizeof *r->buf);
         r->end = r->keep;
         r->buf_first = -(int64_t)r->keep;
-        if (!r->buf || channel_labels_copy(&r->labels, &in[0], out))
+        if (!r->buf)
             rc = WEFT_ENOMEM;
     }
     /* At most ceil(F up / down) outputs for F inputs, plus one for where the block falls. */
@@ -189,6 +186,7 @@ static int init(const weft_host *host, const weft_params *p, const weft_layout *
               "input samples (%.4g s)", in[0].rate, in[0].rate * up / down, up, down,
               2 * r->half + 1, (double)r->half / up, (double)r->half / up / in[0].rate);
     out->kind = WEFT_STREAM_SAMPLES;
+    out->labels = in[0].labels; /* the same channels; the host keeps the strings */
     out->channels = r->channels;
     out->rate = in[0].rate * up / down;
     out->max_frames = (uint32_t)bound;

@@ -136,7 +136,9 @@ typedef enum weft_stream_kind {
 } weft_stream_kind;
 
 /* What flows on one edge. For an output layout the stage fills every field in init; label
- * strings then belong to the stage and must stay valid until destroy. */
+ * strings then belong to the stage and must stay valid until destroy. An input layout's
+ * strings stay valid until the stage's destroy too, so a stage that keeps its input's
+ * channels may simply hand on in[0].labels. */
 typedef struct weft_layout {
     const char *name;           /* the producing stage's name in the graph (host fills in) */
     uint32_t kind;              /* weft_stream_kind */
