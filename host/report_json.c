@@ -4,21 +4,7 @@
 #include <stdio.h>
 
 #include "report.h"
-
-static void json_string(FILE *f, const char *s)
-{
-    fputc('"', f);
-    for (; *s; s++) {
-        unsigned char c = (unsigned char)*s;
-        if (c == '"' || c == '\\')
-            fprintf(f, "\\%c", c);
-        else if (c < 0x20)
-            fprintf(f, "\\u%04x", c);
-        else
-            fputc(c, f);
-    }
-    fputc('"', f);
-}
+#include "json_write.h"
 
 static void json_number(FILE *f, double v)
 {
@@ -58,11 +44,11 @@ static void json_metrics(FILE *f, const metrics *m, int with_itr, double seconds
 static void json_readout(FILE *f, const replay *r, const replay_readout *ro)
 {
     fputs("{\"stage\": ", f);
-    json_string(f, ro->name);
+    json_write_string(f, ro->name);
     fputs(", \"classes\": [", f);
     for (unsigned k = 0; k < ro->n_classes; k++) {
         fputs(k ? ", " : "", f);
-        json_string(f, ro->class_names[k]);
+        json_write_string(f, ro->class_names[k]);
     }
     fputs("], \"score_from\": ", f);
     json_number(f, ro->score_from);
@@ -102,7 +88,7 @@ static void json_readout(FILE *f, const replay *r, const replay_readout *ro)
         fprintf(f, "%s\n    {\"time\": ", i ? "," : "");
         json_number(f, r->cues[t->cue].time);
         fputs(", \"label\": ", f);
-        json_string(f, r->cues[t->cue].label);
+        json_write_string(f, r->cues[t->cue].label);
         fprintf(f, ", \"truth\": %u, \"predicted\": %u, \"results\": %u, \"score\": ",
                 t->truth, t->predicted, t->results);
         json_number(f, t->score);
@@ -115,9 +101,9 @@ int report_json(FILE *f, const replay *r, const char *graph_path)
 {
     const latency *l = &r->stats.round_us;
     fputs("{\"graph\": ", f);
-    json_string(f, graph_path);
+    json_write_string(f, graph_path);
     fputs(", \"recording\": ", f);
-    json_string(f, r->opt.data);
+    json_write_string(f, r->opt.data);
     fputs(", \"recording_seconds\": ", f);
     json_number(f, r->recording_seconds);
     fputs(", \"stream_seconds\": ", f);
@@ -144,7 +130,7 @@ int report_json(FILE *f, const replay *r, const char *graph_path)
         if (fo->tested)
             fputs("null", f);
         else
-            json_string(f, fo->skipped);
+            json_write_string(f, fo->skipped);
         fputc('}', f);
     }
     fputs("],\n \"readouts\": [", f);

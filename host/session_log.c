@@ -1,5 +1,6 @@
 /* session_log: JSON-lines record of a run. */
 #include "session_log.h"
+#include "json_write.h"
 
 #include <errno.h>
 #include <string.h>
@@ -20,20 +21,6 @@ int file_fnv1a64(const char *path, uint64_t *out)
     fclose(f);
     *out = h;
     return failed ? -1 : 0;
-}
-
-static void json_string(FILE *f, const char *s)
-{
-    fputc('"', f);
-    for (const unsigned char *p = (const unsigned char *)(s ? s : ""); *p; p++) {
-        if (*p == '"' || *p == '\\')
-            fprintf(f, "\\%c", *p);
-        else if (*p < 0x20)
-            fprintf(f, "\\u%04x", *p);
-        else
-            fputc(*p, f);
-    }
-    fputc('"', f);
 }
 
 static void utc_now(char *buf, size_t size)
@@ -59,19 +46,19 @@ static void hash_field(FILE *f, const char *key, const char *path)
 static void stage_record(FILE *f, const node *n)
 {
     fputs("{\"event\":\"stage\",\"name\":", f);
-    json_string(f, n->def->name);
+    json_write_string(f, n->def->name);
     fputs(",\"plugin\":", f);
-    json_string(f, n->api->name);
+    json_write_string(f, n->api->name);
     fputs(",\"version\":", f);
-    json_string(f, n->api->version);
+    json_write_string(f, n->api->version);
     fputs(",\"file\":", f);
-    json_string(f, n->plug.file);
+    json_write_string(f, n->plug.file);
     hash_field(f, "file_fnv1a64", n->plug.file);
     fputs(",\"params\":{", f);
     char value[65536];
     for (uint32_t i = 0; i < n->params.count; i++) {
         const weft_param *p = &n->params.items[i];
-        json_string(f, p->name);
+        json_write_string(f, p->name);
         fputc(':', f);
         int unlearned = !p->given && (n->api->params[i].flags & WEFT_PARAM_LEARNED);
         /* A value too long for the buffer (a huge fitted matrix) is logged as null rather
@@ -96,10 +83,10 @@ FILE *session_log_open(const char *path, const pipeline *pl, diag *d)
     utc_now(now, sizeof now);
     fprintf(f, "{\"event\":\"start\",\"utc\":\"%s\",\"weft_abi\":\"%d.%d\",\"graph\":", now,
             WEFT_ABI_MAJOR, WEFT_ABI_MINOR);
-    json_string(f, pl->g->path);
+    json_write_string(f, pl->g->path);
     hash_field(f, "graph_fnv1a64", pl->g->path);
     fputs(",\"name\":", f);
-    json_string(f, pl->g->name);
+    json_write_string(f, pl->g->name);
     fputs("}\n", f);
     for (unsigned k = 0; k < pl->n; k++)
         stage_record(f, &pl->nodes[pl->order[k]]);
@@ -115,14 +102,14 @@ void session_log_swap(FILE *f, const char *stage, const char *plugin, const char
     char now[32];
     utc_now(now, sizeof now);
     fprintf(f, "{\"event\":\"swap\",\"utc\":\"%s\",\"stage\":", now);
-    json_string(f, stage);
+    json_write_string(f, stage);
     fputs(",\"plugin\":", f);
     if (plugin)
-        json_string(f, plugin);
+        json_write_string(f, plugin);
     else
         fputs("null", f);
     fputs(",\"params\":", f);
-    json_string(f, params ? params : "");
+    json_write_string(f, params ? params : "");
     fprintf(f, ",\"index\":%llu,\"time\":%.6f,\"warmup_frames\":%llu}\n",
             (unsigned long long)index, time, (unsigned long long)warmup_frames);
     fflush(f);
@@ -144,7 +131,7 @@ void session_log_close(FILE *f, const loop_stats *st, const char *error)
             latency_quantile(&st->round_us, 0.5), latency_quantile(&st->round_us, 0.99),
             st->round_us.max_us, (unsigned long long)st->dropped_triggers);
     if (error)
-        json_string(f, error);
+        json_write_string(f, error);
     else
         fputs("null", f);
     fputs("}\n", f);
