@@ -1,10 +1,11 @@
 /* session_log: JSON-lines record of a run. */
 #include "session_log.h"
-#include "json_write.h"
 
 #include <errno.h>
 #include <string.h>
 #include <time.h>
+
+#include "json_write.h"
 
 int file_fnv1a64(const char *path, uint64_t *out)
 {
